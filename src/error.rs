@@ -41,7 +41,9 @@ pub enum Error {
         limit_bytes: u64,
     },
     /// No pore cluster connects the inlet to the outlet along the flow axis.
-    #[error("no percolating pore path along {axis}: the pore space does not connect the two {axis} faces")]
+    #[error(
+        "no percolating pore path along {axis}: the pore space does not connect the two {axis} faces"
+    )]
     NoPercolatingPath { axis: char },
     /// The solution blew up (NaN) or left the low-Mach regime.
     #[error("solver diverged at step {step}: {reason}")]

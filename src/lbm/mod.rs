@@ -1,1 +1,14 @@
-//! placeholder
+//! The D3Q19 lattice-Boltzmann flow solver: lattice constants, the fluid-node domain with its
+//! boundary modes, the collide-and-stream kernel and the time loop to steady state.
+
+pub mod boundary;
+pub mod d3q19;
+pub mod domain;
+pub mod kernel;
+pub mod solver;
+
+pub use boundary::{BoundaryMode, Ends, Sides};
+pub use domain::Domain;
+pub use solver::{
+    Collision, FlowField, Progress, Silent, SolverSettings, hydraulic_diameter, solve,
+};

@@ -1,0 +1,269 @@
+//! The collide-and-stream kernel: TRT (or BGK) collision with Guo forcing, half-way bounce-back,
+//! in-place streaming with the AA access pattern, f32 populations stored as deviations f − w_i.
+//!
+//! AA pattern (Bailey, Myre, Walsh, Lilja & Saar 2009, ICPP, 550–557): one population array,
+//! updated in place. On an *even* step each node reads its own 19 slots and writes the
+//! post-collision values back into the opposite slots. On an *odd* step a node gathers f_i from
+//! slot ī of the node at x − c_i and scatters the post-collision f_i to slot i of the node at
+//! x + c_i. In both cases the set of slots a node writes is the set it read, so nodes never race
+//! and no second lattice is needed. After an odd step the array holds the plain (streamed,
+//! pre-collision) populations again.
+//!
+//! Half-way bounce-back: when x − c_i is solid (or outside a non-periodic face) the odd step reads
+//! slot i of the node itself instead, which holds the node's own post-collision f_ī of the previous
+//! step — the population that hit the wall half-way and came back. The slot index is resolved per
+//! link into the same gather/scatter table, so the collision has no wall branches.
+//!
+//! Storing f − w_i keeps f32 accurate: the deviations are O(ρ − 1, u) ≈ 1e-3, so rounding acts on
+//! the part of f that carries the flow (common practice; Skordos 1993, Phys. Rev. E 48, 4823).
+
+use super::d3q19::{C, CS2, PAIRS, Q, W};
+use super::domain::Domain;
+use rayon::prelude::*;
+
+/// Nodes per work unit. Fixed, so reductions add the same partial sums in the same order for
+/// any thread count (bit-identical results).
+pub const CHUNK: usize = 4096;
+
+/// Relaxation rates and force of one solve, in lattice units.
+#[derive(Debug, Clone, Copy)]
+pub struct KernelParams {
+    /// ω⁺ = 1/τ⁺: relaxes the symmetric (even) part and sets the viscosity.
+    pub omega_plus: f64,
+    /// ω⁻ = 1/τ⁻: relaxes the antisymmetric (odd) part. Equal to ω⁺ for BGK.
+    pub omega_minus: f64,
+    /// Body-force density (acceleration with ρ₀ = 1) in lattice units.
+    pub force: [f64; 3],
+}
+
+/// Per-chunk sums gathered while colliding.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Sums {
+    /// Σ u over fluid nodes.
+    pub u: [f64; 3],
+    /// max |u|² over fluid nodes.
+    pub u2_max: f64,
+}
+
+impl Sums {
+    fn add(&mut self, o: &Sums) {
+        for d in 0..3 {
+            self.u[d] += o.u[d];
+        }
+        self.u2_max = self.u2_max.max(o.u2_max);
+    }
+}
+
+/// Populations of every fluid node, structure of arrays: slot i of node k is `f[i * n + k]`.
+pub struct Lattice {
+    n: usize,
+    f: Vec<f32>,
+    partial: Vec<Sums>,
+    /// Number of completed steps; even means the array holds plain populations.
+    pub steps: usize,
+}
+
+/// Raw pointer shared between rayon workers. Safe because the AA pattern gives every node a
+/// disjoint set of slots (see the module docs).
+#[derive(Clone, Copy)]
+struct Slots(*mut f32);
+unsafe impl Send for Slots {}
+unsafe impl Sync for Slots {}
+
+const CX: [f32; Q] = cf(0);
+const CY: [f32; Q] = cf(1);
+const CZ: [f32; Q] = cf(2);
+const WF: [f32; Q] = wf();
+
+const fn cf(d: usize) -> [f32; Q] {
+    let mut out = [0.0f32; Q];
+    let mut i = 0;
+    while i < Q {
+        out[i] = C[i][d] as f32;
+        i += 1;
+    }
+    out
+}
+
+const fn wf() -> [f32; Q] {
+    let mut out = [0.0f32; Q];
+    let mut i = 0;
+    while i < Q {
+        out[i] = W[i] as f32;
+        i += 1;
+    }
+    out
+}
+
+/// Velocity at a node from its deviations d = f − w: ρ = 1 + Σ d, ρu = Σ d c + F/2
+/// (Guo, Zheng & Shi 2002, Phys. Rev. E 65, 046308, eq. 20 — half the force enters the moment).
+#[inline(always)]
+fn moments(d: &[f32; Q], g: [f32; 3]) -> (f32, f32, [f32; 3]) {
+    let mut rho_m1 = 0.0f32;
+    let mut j = [0.0f32; 3];
+    for i in 0..Q {
+        rho_m1 += d[i];
+        j[0] += d[i] * CX[i];
+        j[1] += d[i] * CY[i];
+        j[2] += d[i] * CZ[i];
+    }
+    let rho = 1.0 + rho_m1;
+    let inv = 1.0 / rho;
+    let u = [
+        (j[0] + 0.5 * g[0]) * inv,
+        (j[1] + 0.5 * g[1]) * inv,
+        (j[2] + 0.5 * g[2]) * inv,
+    ];
+    (rho_m1, rho, u)
+}
+
+/// TRT collision with Guo forcing, in place on the deviations of one node. Returns u.
+///
+/// Equilibrium f_eq = w ρ (1 + c·u/c_s² + (c·u)²/(2c_s⁴) − u²/(2c_s²)); symmetric and
+/// antisymmetric parts relax with ω⁺ and ω⁻ (Ginzburg, Verhaeghe & d'Humières 2008, Commun.
+/// Comput. Phys. 3, 427); the Guo source w[(c−u)/c_s² + (c·u)c/c_s⁴]·F is split the same way, each
+/// part scaled by (1 − ω±/2) (the TRT form of Guo et al. 2002, eq. 19).
+#[inline(always)]
+fn collide(d: &mut [f32; Q], g: [f32; 3], om_p: f32, om_m: f32) -> [f32; 3] {
+    let (rho_m1, rho, u) = moments(d, g);
+    let usq = u[0] * u[0] + u[1] * u[1] + u[2] * u[2];
+    let ug = u[0] * g[0] + u[1] * g[1] + u[2] * g[2];
+    let fp = 1.0 - 0.5 * om_p;
+    let fm = 1.0 - 0.5 * om_m;
+    let inv_cs2 = (1.0 / CS2) as f32;
+
+    let eq0 = WF[0] * (rho_m1 - 0.5 * inv_cs2 * rho * usq);
+    d[0] += -om_p * (d[0] - eq0) + fp * WF[0] * (-inv_cs2 * ug);
+    for i in 1..=PAIRS {
+        let o = i + PAIRS;
+        let w = WF[i];
+        let cu = CX[i] * u[0] + CY[i] * u[1] + CZ[i] * u[2];
+        let cg = CX[i] * g[0] + CY[i] * g[1] + CZ[i] * g[2];
+        let eq_p = w * (rho_m1 + rho * (0.5 * inv_cs2 * inv_cs2 * cu * cu - 0.5 * inv_cs2 * usq));
+        let eq_m = w * rho * inv_cs2 * cu;
+        let src_p = fp * w * (inv_cs2 * inv_cs2 * cu * cg - inv_cs2 * ug);
+        let src_m = fm * w * inv_cs2 * cg;
+        let dp = 0.5 * (d[i] + d[o]);
+        let dm = 0.5 * (d[i] - d[o]);
+        let a = om_p * (dp - eq_p);
+        let b = om_m * (dm - eq_m);
+        d[i] += -a - b + src_p + src_m;
+        d[o] += -a + b + src_p - src_m;
+    }
+    u
+}
+
+impl Lattice {
+    /// A lattice at rest (ρ = 1, u = 0 everywhere: all deviations zero).
+    pub fn at_rest(domain: &Domain) -> Lattice {
+        let n = domain.fluid_nodes();
+        Lattice {
+            n,
+            f: vec![0.0; Q * n],
+            partial: vec![Sums::default(); n.div_ceil(CHUNK)],
+            steps: 0,
+        }
+    }
+
+    /// Number of fluid nodes.
+    pub fn nodes(&self) -> usize {
+        self.n
+    }
+
+    /// One time step (collide + stream) over all nodes. Returns Σu and max|u|² of the
+    /// pre-collision state, summed in a fixed order.
+    pub fn step(&mut self, domain: &Domain, p: &KernelParams) -> Sums {
+        let n = self.n;
+        let odd = self.steps % 2 == 1;
+        let slots = Slots(self.f.as_mut_ptr());
+        let g = [p.force[0] as f32, p.force[1] as f32, p.force[2] as f32];
+        let (om_p, om_m) = (p.omega_plus as f32, p.omega_minus as f32);
+        self.partial
+            .par_iter_mut()
+            .enumerate()
+            .for_each(|(chunk, sums)| {
+                let slots = slots;
+                let start = chunk * CHUNK;
+                let end = (start + CHUNK).min(n);
+                let mut s = Sums::default();
+                let mut at = [0usize; Q];
+                let mut d = [0.0f32; Q];
+                for k in start..end {
+                    if odd {
+                        gather_table(domain, k, n, &mut at);
+                    } else {
+                        for (i, a) in at.iter_mut().enumerate() {
+                            *a = i * n + k;
+                        }
+                    }
+                    // SAFETY: `at` holds indices below Q * n, and the slots of node k are
+                    // touched by no other node in this step (AA pattern, module docs).
+                    unsafe {
+                        for i in 0..Q {
+                            d[i] = *slots.0.add(at[i]);
+                        }
+                    }
+                    let u = collide(&mut d, g, om_p, om_m);
+                    unsafe {
+                        *slots.0.add(at[0]) = d[0];
+                        for i in 1..=PAIRS {
+                            *slots.0.add(at[i + PAIRS]) = d[i];
+                            *slots.0.add(at[i]) = d[i + PAIRS];
+                        }
+                    }
+                    s.u[0] += u[0] as f64;
+                    s.u[1] += u[1] as f64;
+                    s.u[2] += u[2] as f64;
+                    let u2 = (u[0] * u[0] + u[1] * u[1] + u[2] * u[2]) as f64;
+                    if u2 > s.u2_max || u2.is_nan() {
+                        s.u2_max = u2;
+                    }
+                }
+                *sums = s;
+            });
+        self.steps += 1;
+        let mut total = Sums::default();
+        for s in &self.partial {
+            total.add(s);
+        }
+        total
+    }
+
+    /// Density and velocity of every node. Valid after an even number of steps (plain layout).
+    pub fn macroscopic(&self, p: &KernelParams) -> (Vec<f32>, Vec<[f32; 3]>) {
+        debug_assert!(self.steps % 2 == 0);
+        let n = self.n;
+        let g = [p.force[0] as f32, p.force[1] as f32, p.force[2] as f32];
+        (0..n)
+            .into_par_iter()
+            .map(|k| {
+                let mut d = [0.0f32; Q];
+                for (i, di) in d.iter_mut().enumerate() {
+                    *di = self.f[i * n + k];
+                }
+                let (_, rho, u) = moments(&d, g);
+                (rho, u)
+            })
+            .unzip()
+    }
+}
+
+/// Slots an odd step reads for node k: slot ī of the upstream node at x − c_i, or — when that is
+/// solid or outside a non-periodic face — slot i of node k itself (half-way bounce-back).
+#[inline(always)]
+fn gather_table(domain: &Domain, k: usize, n: usize, at: &mut [usize; Q]) {
+    let c = domain.coords[k];
+    at[0] = k;
+    for i in 1..=PAIRS {
+        let o = i + PAIRS;
+        // Upstream of direction i is x − c_i = x + c_o, and vice versa.
+        at[i] = match domain.neighbour(c, C[o]) {
+            Some(m) => o * n + m as usize,
+            None => i * n + k,
+        };
+        at[o] = match domain.neighbour(c, C[i]) {
+            Some(m) => i * n + m as usize,
+            None => o * n + k,
+        };
+    }
+}

@@ -1,0 +1,332 @@
+//! The time loop: relaxation settings, body-force choice, convergence to steady state and the
+//! stopping rules (NaN, Mach number, step cap).
+
+use super::d3q19::CS2;
+use super::domain::Domain;
+use super::kernel::{KernelParams, Lattice};
+use crate::geometry::Axis;
+use crate::{Error, Result};
+use std::time::Instant;
+
+/// Collision operator.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Collision {
+    /// Two relaxation times with a fixed magic parameter Λ: permeability independent of τ.
+    Trt,
+    /// Single relaxation time (Bhatnagar, Gross & Krook 1954): the wall position, hence k,
+    /// drifts with τ. Kept for comparison.
+    Bgk,
+}
+
+impl std::str::FromStr for Collision {
+    type Err = String;
+    fn from_str(s: &str) -> std::result::Result<Self, String> {
+        match s.to_ascii_lowercase().as_str() {
+            "trt" => Ok(Collision::Trt),
+            "bgk" => Ok(Collision::Bgk),
+            _ => Err(format!("unknown collision '{s}' (expected trt or bgk)")),
+        }
+    }
+}
+
+/// Λ = 3/16 places half-way bounce-back walls exactly midway between nodes for Poiseuille flow
+/// (Ginzburg, Verhaeghe & d'Humières 2008, Commun. Comput. Phys. 3, 427 — from memory).
+pub const MAGIC_3_16: f64 = 3.0 / 16.0;
+
+/// Everything that controls one solve.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct SolverSettings {
+    pub collision: Collision,
+    /// τ⁺ (TRT) or τ (BGK); sets ν = c_s²(τ − ½).
+    pub tau: f64,
+    /// TRT magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½).
+    pub magic: f64,
+    /// Converged when the relative change of the mean velocity per step, measured over a window
+    /// of `check_every` steps, stays below this for two windows in a row.
+    pub tolerance: f64,
+    /// Step cap; reaching it returns an unconverged result (flagged), not an error.
+    pub max_steps: usize,
+    /// Window length in steps (rounded up to even: the AA pattern works in step pairs).
+    pub check_every: usize,
+    /// Body-force magnitude in lattice units; `None` chooses it from the pore size (see
+    /// [`auto_force`]).
+    pub force: Option<f64>,
+    /// Target peak speed used by the automatic force choice, lattice units.
+    pub target_speed: f64,
+    /// Stop with an error when the peak Mach number |u|/c_s exceeds this.
+    pub max_mach: f64,
+}
+
+impl Default for SolverSettings {
+    fn default() -> Self {
+        SolverSettings {
+            collision: Collision::Trt,
+            tau: 1.0,
+            magic: MAGIC_3_16,
+            tolerance: 1e-6,
+            max_steps: 200_000,
+            check_every: 100,
+            force: None,
+            target_speed: 2e-3,
+            max_mach: 0.1,
+        }
+    }
+}
+
+impl SolverSettings {
+    /// Kinematic viscosity ν = c_s² (τ − ½), lattice units.
+    pub fn viscosity(&self) -> f64 {
+        CS2 * (self.tau - 0.5)
+    }
+
+    /// τ⁻ from Λ (TRT) or τ (BGK).
+    pub fn tau_minus(&self) -> f64 {
+        match self.collision {
+            Collision::Trt => 0.5 + self.magic / (self.tau - 0.5),
+            Collision::Bgk => self.tau,
+        }
+    }
+
+    /// Checks the settings; τ ≤ ½ is refused (negative viscosity). Returns warnings for values
+    /// that are allowed but unwise.
+    pub fn validate(&self) -> Result<Vec<String>> {
+        let mut warnings = Vec::new();
+        if !(self.tau.is_finite() && self.tau > 0.5) {
+            return Err(Error::Usage(format!(
+                "--tau {} is not above 0.5: the viscosity c_s²(τ − ½) would not be positive",
+                self.tau
+            )));
+        }
+        if self.tau > 2.0 || self.tau < 0.51 {
+            // Common practice: 0.5 < τ ≲ 2 for stability and accuracy.
+            warnings.push(format!(
+                "tau {} is outside 0.51–2.0 where the lattice-Boltzmann method is usually stable and accurate",
+                self.tau
+            ));
+        }
+        if !(self.magic.is_finite() && self.magic > 0.0) {
+            return Err(Error::Usage(format!(
+                "magic parameter {} must be positive",
+                self.magic
+            )));
+        }
+        if !(self.tolerance.is_finite() && self.tolerance > 0.0) {
+            return Err(Error::Usage(format!(
+                "--tolerance {} must be a positive number",
+                self.tolerance
+            )));
+        }
+        if self.max_steps < 2 {
+            return Err(Error::Usage("--max-steps must be at least 2".into()));
+        }
+        if let Some(f) = self.force {
+            if !(f.is_finite() && f > 0.0) {
+                return Err(Error::Usage(format!(
+                    "body force {f} must be a positive number"
+                )));
+            }
+        }
+        Ok(warnings)
+    }
+}
+
+/// Chooses a body force that keeps the flow slow (Stokes regime, low Mach number):
+/// g = 16 ν u* / d_h², the force that drives a peak speed u* in a tube of diameter d_h
+/// (Hagen–Poiseuille, u_max = g d²/(16ν)), with d_h = 4φ/S the hydraulic diameter from the
+/// porosity and the voxel-face surface per volume (common practice).
+pub fn auto_force(domain: &Domain, nu: f64, target_speed: f64) -> f64 {
+    let dh = hydraulic_diameter(domain);
+    16.0 * nu * target_speed / (dh * dh)
+}
+
+/// Hydraulic diameter d_h = 4 V_pore / A_wall in voxels, from voxel faces (common practice); the
+/// smallest grid extent when there are no walls at all.
+pub fn hydraulic_diameter(domain: &Domain) -> f64 {
+    let faces = wall_faces(domain) as f64;
+    if faces > 0.0 {
+        4.0 * domain.fluid_nodes() as f64 / faces
+    } else {
+        *domain.shape.iter().min().unwrap_or(&1) as f64
+    }
+}
+
+/// Number of fluid-node faces touching solid or a non-periodic boundary.
+pub fn wall_faces(domain: &Domain) -> usize {
+    const FACES: [[i32; 3]; 6] = [
+        [1, 0, 0],
+        [-1, 0, 0],
+        [0, 1, 0],
+        [0, -1, 0],
+        [0, 0, 1],
+        [0, 0, -1],
+    ];
+    domain
+        .coords
+        .iter()
+        .map(|&c| {
+            FACES
+                .iter()
+                .filter(|&&dc| domain.neighbour(c, dc).is_none())
+                .count()
+        })
+        .sum()
+}
+
+/// What the solver reports while it runs.
+pub trait Progress {
+    /// Called after each convergence check.
+    fn on_check(&mut self, _step: usize, _max_steps: usize, _residual: f64, _tolerance: f64) {}
+}
+
+/// A progress sink that ignores everything.
+pub struct Silent;
+impl Progress for Silent {}
+
+/// One convergence check.
+#[derive(Debug, Clone, Copy, serde::Serialize)]
+pub struct CheckPoint {
+    pub step: usize,
+    /// Mean velocity over the solver grid (solid counted as zero), lattice units.
+    pub mean_velocity: [f64; 3],
+    /// Relative change of the mean velocity per step over the last window.
+    pub residual: f64,
+}
+
+/// The steady flow and how it was reached.
+#[derive(Debug, Clone)]
+pub struct FlowField {
+    /// Density of every fluid node (domain order).
+    pub density: Vec<f32>,
+    /// Velocity of every fluid node (domain order), lattice units.
+    pub velocity: Vec<[f32; 3]>,
+    /// Body force used (lattice units, vector).
+    pub force: [f64; 3],
+    pub viscosity: f64,
+    pub tau_minus: f64,
+    pub steps: usize,
+    pub converged: bool,
+    pub residual: f64,
+    pub history: Vec<CheckPoint>,
+    /// Peak speed seen at the last check, lattice units.
+    pub max_speed: f64,
+    pub wall_seconds: f64,
+    /// Million fluid-node updates per second.
+    pub mlups: f64,
+}
+
+/// Runs the solver to steady state with the force along `direction`.
+pub fn solve(
+    domain: &Domain,
+    direction: Axis,
+    settings: &SolverSettings,
+    progress: &mut dyn Progress,
+) -> Result<FlowField> {
+    settings.validate()?;
+    if domain.fluid_nodes() == 0 {
+        return Err(Error::BadVolume(
+            "the solver grid has no fluid nodes".into(),
+        ));
+    }
+    let nu = settings.viscosity();
+    let tau_m = settings.tau_minus();
+    let g = settings
+        .force
+        .unwrap_or_else(|| auto_force(domain, nu, settings.target_speed));
+    let mut force = [0.0; 3];
+    force[direction.index()] = g;
+    let params = KernelParams {
+        omega_plus: 1.0 / settings.tau,
+        omega_minus: 1.0 / tau_m,
+        force,
+    };
+    let window = settings.check_every.max(2).div_ceil(2) * 2;
+    let max_steps = settings.max_steps.div_ceil(2) * 2;
+    let voxels = domain.voxels() as f64;
+    let cs = CS2.sqrt();
+
+    let mut lattice = Lattice::at_rest(domain);
+    let mut history: Vec<CheckPoint> = Vec::new();
+    let mut prev: Option<[f64; 3]> = None;
+    let mut below = 0;
+    let mut converged = false;
+    let mut residual = f64::INFINITY;
+    let mut max_speed = 0.0;
+    let started = Instant::now();
+    while lattice.steps < max_steps {
+        let sums = lattice.step(domain, &params);
+        if lattice.steps % window != 0 {
+            continue;
+        }
+        let step = lattice.steps;
+        max_speed = sums.u2_max.sqrt();
+        if !sums.u2_max.is_finite() || sums.u.iter().any(|v| !v.is_finite()) {
+            return Err(Error::Diverged {
+                step,
+                reason: "the velocity became NaN or infinite; try a larger --tau".into(),
+            });
+        }
+        if max_speed / cs > settings.max_mach {
+            return Err(Error::Diverged {
+                step,
+                reason: format!(
+                    "peak Mach number {:.3} exceeds {}; the body force is too strong for this geometry",
+                    max_speed / cs,
+                    settings.max_mach
+                ),
+            });
+        }
+        let mean = sums.u.map(|v| v / voxels);
+        if let Some(p) = prev {
+            let change = norm([mean[0] - p[0], mean[1] - p[1], mean[2] - p[2]]);
+            let size = norm(mean);
+            residual = if size > 0.0 {
+                change / (size * window as f64)
+            } else {
+                f64::INFINITY
+            };
+        }
+        prev = Some(mean);
+        history.push(CheckPoint {
+            step,
+            mean_velocity: mean,
+            residual,
+        });
+        progress.on_check(step, max_steps, residual, settings.tolerance);
+        if residual < settings.tolerance {
+            below += 1;
+            if below >= 2 {
+                converged = true;
+                break;
+            }
+        } else {
+            below = 0;
+        }
+    }
+    let wall = started.elapsed().as_secs_f64();
+    // The loop always stops after a completed step pair (window and cap are even).
+    let (density, velocity) = lattice.macroscopic(&params);
+    let steps = lattice.steps;
+    Ok(FlowField {
+        density,
+        velocity,
+        force,
+        viscosity: nu,
+        tau_minus: tau_m,
+        steps,
+        converged,
+        residual,
+        history,
+        max_speed,
+        wall_seconds: wall,
+        mlups: if wall > 0.0 {
+            domain.fluid_nodes() as f64 * steps as f64 / wall / 1e6
+        } else {
+            0.0
+        },
+    })
+}
+
+fn norm(v: [f64; 3]) -> f64 {
+    (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]).sqrt()
+}

@@ -1,0 +1,67 @@
+//! Straight channels with exact solutions: plane Poiseuille flow in slits and the square duct.
+mod common;
+use common::*;
+use voxperm::geometry::Axis;
+
+/// Plane Poiseuille flow: mean over the N fluid nodes of the exact parabola gives
+/// k = N²/12 + 1/24 per open area (REFERENCES.md, "Straight channels"; midpoint sampling of
+/// h²/12 with h = N under half-way bounce-back). TRT with Λ = 3/16 reproduces it to round-off
+/// (Ginzburg et al. 2008), so 0.5 % is a loose bound.
+#[test]
+fn slit_matches_plane_poiseuille_for_every_wall_orientation() {
+    let n = 8usize;
+    let exact_open = (n * n) as f64 / 12.0 + 1.0 / 24.0;
+    let open_fraction = n as f64 / (n + 1) as f64;
+    for normal in Axis::ALL {
+        for flow in Axis::ALL.into_iter().filter(|&a| a != normal) {
+            let r = solve_periodic(&slit(normal, n, 3), flow);
+            let want = exact_open * open_fraction;
+            let err = rel(r.permeability, want);
+            println!(
+                "slit normal {normal} flow {flow}: k = {:.6} want {want:.6} err {err:.2e}",
+                r.permeability
+            );
+            assert!(
+                err < 5e-3,
+                "normal {normal} flow {flow}: k {} vs {want} ({err:.2e})",
+                r.permeability
+            );
+            // Straight streamlines: hydraulic tortuosity exactly 1 (REFERENCES.md, "Tortuosity").
+            assert!(
+                (r.tortuosity - 1.0).abs() < 1e-6,
+                "tortuosity {}",
+                r.tortuosity
+            );
+            // No flow across the walls.
+            let across =
+                r.superficial_velocity[normal.index()] / r.superficial_velocity[flow.index()];
+            assert!(
+                across.abs() < 1e-6,
+                "flow across the walls: {across:.2e} of the axial flow"
+            );
+        }
+    }
+}
+
+/// Square duct of side s: k = 0.0351442537 s² per open area, from the series solution for the
+/// rectangular duct (White, Viscous Fluid Flow, rectangular-duct section; Shah & London 1978,
+/// f·Re = 14.227). With half-way bounce-back, s = the number of fluid nodes across. Within 2 %.
+#[test]
+fn square_duct_matches_series_solution() {
+    let s = 16usize;
+    let mask = voxperm::geometry::PoreMask::from_fn([2, s + 1, s + 1], |_, y, z| y < s && z < s);
+    let r = solve_periodic(&mask, Axis::X);
+    let open = (s * s) as f64 / ((s + 1) * (s + 1)) as f64;
+    let want = 0.0351442537 * (s * s) as f64 * open;
+    let err = rel(r.permeability, want);
+    println!(
+        "square duct {s}: k = {:.5} want {want:.5} err {err:.2e}",
+        r.permeability
+    );
+    assert!(err < 0.02, "duct k {} vs {want}: {err:.3e}", r.permeability);
+    assert!(
+        (r.tortuosity - 1.0).abs() < 1e-6,
+        "tortuosity {}",
+        r.tortuosity
+    );
+}
