@@ -1,7 +1,12 @@
 //! From flow fields and geometry to the numbers a practitioner reads: permeability (lattice, m²,
-//! mD), tortuosity, flow-regime numbers.
+//! mD) along an axis and as a tensor, tortuosity, flow-regime numbers, Kozeny–Carman.
 
+pub mod estimate;
 pub mod flow;
+pub mod kozeny;
+pub mod tensor;
 pub mod units;
 
-pub use flow::{AxisFlow, analyse};
+pub use estimate::{estimate, estimate_axis, AxisEstimate, Estimate, EstimateConfig, KeptField};
+pub use flow::{analyse, AxisFlow};
+pub use tensor::{analyse_tensor, TensorAnalysis};

@@ -1,7 +1,10 @@
 //! Geometry of the pore space: the boolean pore mask, flow axes, and (in submodules) porosity,
 //! connectivity, surface area and synthetic structure generators.
 
+pub mod connectivity;
+pub mod describe;
 mod mask;
+pub mod surface;
 
 pub use mask::PoreMask;
 
