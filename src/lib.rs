@@ -6,10 +6,9 @@
 //! → [`lbm`] (fluid-node domain, collision + streaming, steady state)
 //! → [`analysis`] (permeability, tortuosity, Kozeny–Carman) → [`report`] (JSON, VTK, tables).
 //!
-//! The command-line front end in [`cli`] only wires these steps together.
+//! The `voxperm` binary (src/main.rs, src/cli/) only wires these steps together.
 
 pub mod analysis;
-pub mod cli;
 pub mod error;
 pub mod geometry;
 pub mod lbm;

@@ -7,6 +7,6 @@ pub mod kozeny;
 pub mod tensor;
 pub mod units;
 
-pub use estimate::{estimate, estimate_axis, AxisEstimate, Estimate, EstimateConfig, KeptField};
-pub use flow::{analyse, AxisFlow};
-pub use tensor::{analyse_tensor, TensorAnalysis};
+pub use estimate::{AxisEstimate, Estimate, EstimateConfig, KeptField, estimate, estimate_axis};
+pub use flow::{AxisFlow, analyse};
+pub use tensor::{TensorAnalysis, analyse_tensor};

@@ -175,8 +175,12 @@ pub fn wall_faces(domain: &Domain) -> usize {
 
 /// What the solver reports while it runs.
 pub trait Progress {
+    /// Called when a solve starts (`label` names it, e.g. the flow axis).
+    fn on_start(&mut self, _label: &str, _fluid_nodes: usize) {}
     /// Called after each convergence check.
     fn on_check(&mut self, _step: usize, _max_steps: usize, _residual: f64, _tolerance: f64) {}
+    /// Called when a solve ends, converged or not.
+    fn on_finish(&mut self) {}
 }
 
 /// A progress sink that ignores everything.
@@ -245,6 +249,7 @@ pub fn solve(
     let voxels = domain.voxels() as f64;
     let cs = CS2.sqrt();
 
+    progress.on_start(&direction.to_string(), domain.fluid_nodes());
     let mut lattice = Lattice::at_rest(domain);
     let mut history: Vec<CheckPoint> = Vec::new();
     let mut prev: Option<[f64; 3]> = None;
@@ -304,6 +309,7 @@ pub fn solve(
         }
     }
     let wall = started.elapsed().as_secs_f64();
+    progress.on_finish();
     // The loop always stops after a completed step pair (window and cap are even).
     let (density, velocity) = lattice.macroscopic(&params);
     let steps = lattice.steps;

@@ -1,0 +1,157 @@
+//! The human-readable summary `voxperm estimate` prints on stdout.
+
+use super::json::{CAUTION, EstimateReport};
+use std::fmt::Write;
+
+/// Formats a number in engineering-friendly scientific notation.
+fn sci(v: f64) -> String {
+    if v == 0.0 {
+        "0".into()
+    } else {
+        format!("{v:.4e}")
+    }
+}
+
+/// Renders the summary text.
+pub fn render(r: &EstimateReport) -> String {
+    let mut s = String::new();
+    let inp = &r.input;
+    let _ = writeln!(s, "voxperm {} — permeability estimate", r.version);
+    let _ = writeln!(
+        s,
+        "sample      {}  ({}x{}x{} {}, {})",
+        inp.path, inp.shape[0], inp.shape[1], inp.shape[2], inp.sample_type, inp.segmentation
+    );
+    match r.voxel_size_m {
+        Some(dx) => {
+            let _ = writeln!(s, "voxel size  {} m  ({})", sci(dx), inp.voxel_size_source);
+        }
+        None => {
+            let _ = writeln!(
+                s,
+                "voxel size  unknown: results in voxel² only; give --voxel-size for m² and mD"
+            );
+        }
+    }
+    let set = &r.settings;
+    let _ = writeln!(
+        s,
+        "solver      D3Q19 {:?}, tau {} (tau- {:.4}), sides {}, ends {}, tolerance {:.1e}",
+        set.solver.collision,
+        set.solver.tau,
+        set.tau_minus,
+        set.sides,
+        set.ends,
+        set.solver.tolerance
+    );
+    let _ = writeln!(s, "porosity    {:.4}", r.porosity);
+    if let Some(g) = &r.geometry {
+        let _ = writeln!(
+            s,
+            "surface     {:.4e} per voxel ({})",
+            g.specific_surface_per_voxel, g.surface_estimator
+        );
+    }
+    let _ = writeln!(s);
+    let _ = writeln!(
+        s,
+        "axis  k [voxel²]    k [m²]        k [mD]        connected φ  tortuosity  Re        Ma        steps   converged"
+    );
+    for a in &r.axes {
+        let (tort, re, ma) = match &a.flow {
+            Some(f) => (
+                format!("{:.4}", f.tortuosity),
+                format!("{:.2e}", f.reynolds),
+                format!("{:.2e}", f.mach),
+            ),
+            None => ("-".into(), "-".into(), "-".into()),
+        };
+        let _ = writeln!(
+            s,
+            "{:<5} {:<13} {:<13} {:<13} {:<12.4} {:<11} {:<9} {:<9} {:<7} {}",
+            a.axis.to_string(),
+            sci(a.permeability_lattice),
+            a.permeability_m2.map_or("-".into(), sci),
+            a.permeability_md.map_or("-".into(), |v| format!("{v:.4}")),
+            a.connected_porosity,
+            tort,
+            re,
+            ma,
+            a.steps,
+            if a.converged { "yes" } else { "NO" }
+        );
+        if let Some(n) = &a.note {
+            let _ = writeln!(s, "      note: {n}");
+        }
+    }
+    if let Some(t) = &r.tensor_analysis {
+        let _ = writeln!(s);
+        let _ = writeln!(s, "permeability tensor [voxel²] (column j: force along j)");
+        for row in &t.tensor {
+            let _ = writeln!(
+                s,
+                "  {:>12} {:>12} {:>12}",
+                sci(row[0]),
+                sci(row[1]),
+                sci(row[2])
+            );
+        }
+        let _ = writeln!(
+            s,
+            "principal values [voxel²] {} {} {}; anisotropy ratio {:.3}; asymmetry {:.1e}",
+            sci(t.principal_values[0]),
+            sci(t.principal_values[1]),
+            sci(t.principal_values[2]),
+            t.anisotropy_ratio,
+            t.asymmetry
+        );
+        for (v, d) in t.principal_values.iter().zip(&t.principal_directions) {
+            let _ = writeln!(
+                s,
+                "  direction of {}: ({:+.3}, {:+.3}, {:+.3})",
+                sci(*v),
+                d[0],
+                d[1],
+                d[2]
+            );
+        }
+    }
+    if let Some(g) = &r.geometry {
+        if let Some(kc) = g.kozeny_carman_lattice {
+            let _ = writeln!(s);
+            let phys = g
+                .kozeny_carman_md
+                .map_or(String::new(), |md| format!(" = {md:.4} mD"));
+            let _ = writeln!(
+                s,
+                "Kozeny–Carman (c_K = {}): k = {} voxel²{phys}; implied c_K from the solve: {}",
+                g.kozeny_constant_assumed,
+                sci(kc),
+                match &r.kozeny_constant_implied {
+                    serde_json::Value::Number(n) =>
+                        format!("{:.3}", n.as_f64().unwrap_or(f64::NAN)),
+                    serde_json::Value::Object(m) => m
+                        .iter()
+                        .map(|(k, v)| format!(
+                            "{k} {}",
+                            v.as_f64().map_or("-".into(), |x| format!("{x:.3}"))
+                        ))
+                        .collect::<Vec<_>>()
+                        .join(", "),
+                    _ => "-".into(),
+                }
+            );
+        }
+    }
+    let _ = writeln!(s);
+    let _ = writeln!(
+        s,
+        "{} steps in {:.2} s, {:.1} MLUPS",
+        r.steps, r.wall_seconds, r.mlups
+    );
+    for w in &r.warnings {
+        let _ = writeln!(s, "warning: {w}");
+    }
+    let _ = writeln!(s, "caution: {CAUTION}");
+    s
+}
