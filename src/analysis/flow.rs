@@ -14,6 +14,8 @@ pub struct AxisFlow {
     pub permeability: f64,
     /// Superficial (Darcy) velocity over the sample: Σ u over fluid nodes / sample voxels.
     pub superficial_velocity: [f64; 3],
+    /// Body force (acceleration) applied to every fluid node, lattice units.
+    pub body_force: f64,
     /// Driving acceleration: the body force plus, with buffer ends, the mean pressure drop across
     /// the sample per unit length.
     pub effective_force: f64,
@@ -76,6 +78,7 @@ pub fn analyse(
         permeability_column: column,
         permeability: column[a],
         superficial_velocity: superficial,
+        body_force: g,
         effective_force,
         tortuosity: if sum_u[a] != 0.0 {
             sum_speed / sum_u[a]

@@ -18,7 +18,7 @@
 //! the part of f that carries the flow (common practice; Skordos 1993, Phys. Rev. E 48, 4823).
 
 use super::d3q19::{C, CS2, PAIRS, Q, W};
-use super::domain::Domain;
+use super::domain::{Domain, SOLID};
 use rayon::prelude::*;
 
 /// Nodes per work unit. Fixed, so reductions add the same partial sums in the same order for
@@ -178,6 +178,7 @@ impl Lattice {
         let slots = Slots(self.f.as_mut_ptr());
         let g = [p.force[0] as f32, p.force[1] as f32, p.force[2] as f32];
         let (om_p, om_m) = (p.omega_plus as f32, p.omega_minus as f32);
+        let offsets = voxel_offsets(domain.shape);
         self.partial
             .par_iter_mut()
             .enumerate()
@@ -190,7 +191,7 @@ impl Lattice {
                 let mut d = [0.0f32; Q];
                 for k in start..end {
                     if odd {
-                        gather_table(domain, k, n, &mut at);
+                        gather_table(domain, &offsets, k, n, &mut at);
                     } else {
                         for (i, a) in at.iter_mut().enumerate() {
                             *a = i * n + k;
@@ -251,9 +252,30 @@ impl Lattice {
 /// Slots an odd step reads for node k: slot ī of the upstream node at x − c_i, or — when that is
 /// solid or outside a non-periodic face — slot i of node k itself (half-way bounce-back).
 #[inline(always)]
-fn gather_table(domain: &Domain, k: usize, n: usize, at: &mut [usize; Q]) {
+fn gather_table(domain: &Domain, offsets: &[isize; Q], k: usize, n: usize, at: &mut [usize; Q]) {
     let c = domain.coords[k];
     at[0] = k;
+    let interior = (0..3).all(|d| c[d] >= 1 && (c[d] as usize) + 1 < domain.shape[d]);
+    if interior {
+        // Away from the grid faces no step wraps: neighbours are fixed offsets in the voxel map.
+        let v = c[0] as usize + domain.shape[0] * (c[1] as usize + domain.shape[1] * c[2] as usize);
+        for i in 1..=PAIRS {
+            let o = i + PAIRS;
+            let up = domain.node_of_voxel[(v as isize + offsets[o]) as usize];
+            let down = domain.node_of_voxel[(v as isize + offsets[i]) as usize];
+            at[i] = if up != SOLID {
+                o * n + up as usize
+            } else {
+                i * n + k
+            };
+            at[o] = if down != SOLID {
+                i * n + down as usize
+            } else {
+                o * n + k
+            };
+        }
+        return;
+    }
     for i in 1..=PAIRS {
         let o = i + PAIRS;
         // Upstream of direction i is x − c_i = x + c_o, and vice versa.
@@ -266,4 +288,14 @@ fn gather_table(domain: &Domain, k: usize, n: usize, at: &mut [usize; Q]) {
             None => o * n + k,
         };
     }
+}
+
+/// Linear voxel-map offset of each lattice direction.
+fn voxel_offsets(shape: [usize; 3]) -> [isize; Q] {
+    let (sx, sy) = (shape[0] as isize, (shape[0] * shape[1]) as isize);
+    let mut off = [0isize; Q];
+    for (i, c) in C.iter().enumerate() {
+        off[i] = c[0] as isize + sx * c[1] as isize + sy * c[2] as isize;
+    }
+    off
 }
