@@ -1,0 +1,430 @@
+//! Reading TIFF files: multi-page stacks (one page per z slice) and the single pages of a
+//! slice folder. Grey 8-/16-bit unsigned and 32-bit float samples, any compression the `tiff`
+//! crate decodes. Page headers are walked first and the total size checked against the memory
+//! limit before the volume buffer is allocated; pages are then decoded one at a time with the
+//! decoder's own limits set to exactly one page.
+//!
+//! Values are those the `tiff` crate returns: for the rare WhiteIsZero pages it inverts them
+//! (as displayed), so pore labels of such files refer to the displayed values.
+
+use std::fs::File;
+use std::io::{BufReader, Read};
+use std::path::Path;
+
+use tiff::TiffError;
+use tiff::decoder::{Decoder, DecodingResult, Limits};
+use tiff::tags::Tag;
+
+use super::limits::{ReadLimits, bytes_for};
+use super::raw::RawType;
+use super::{Volume, VoxelData, VoxelSize, VoxelSizeSource, format_length, one_line};
+use crate::{Error, Result};
+
+/// A decoder over a buffered file.
+pub(crate) type TiffDecoder = Decoder<BufReader<File>>;
+
+/// Size and sample type of one page; every page of a volume must have the same.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) struct PageInfo {
+    pub width: u32,
+    pub height: u32,
+    pub kind: RawType,
+}
+
+impl PageInfo {
+    pub fn describe(&self) -> String {
+        format!("{}x{} {}", self.width, self.height, self.kind)
+    }
+
+    /// Bytes of one decoded page; None if it overflows.
+    pub fn bytes(&self) -> Option<u64> {
+        bytes_for(
+            [self.width as usize, self.height as usize, 1],
+            self.kind.bytes(),
+        )
+    }
+}
+
+/// Largest tag value (e.g. a strip offset table) we let the decoder read. The crate's default
+/// of 1 MiB is too small for tall pages stored one row per strip; 8 MiB still bounds what a
+/// hostile header can make us read per page.
+const MAX_TAG_BYTES: usize = 8 << 20;
+
+/// "page 4 (z = 3)": one-based like image viewers, with the zero-based z voxperm uses.
+pub(crate) fn page_label(z: usize) -> String {
+    format!("page {} (z = {z})", z + 1)
+}
+
+/// Reads a multi-page TIFF, one page per z slice.
+pub fn read_tiff_stack(path: &Path, limits: &ReadLimits) -> Result<Volume> {
+    // Pass 1: walk the page headers only.
+    let mut dec = open(path)?;
+    let first = page_info(&mut dec, path, 0)?;
+    let voxel_size = file_voxel_size(&mut dec, path);
+    let mut pages = 1usize;
+    while dec.more_images() {
+        dec.next_image()
+            .map_err(|e| tiff_error(path, Some(pages), e))?;
+        let info = page_info(&mut dec, path, pages)?;
+        if info != first {
+            return Err(Error::bad_input(
+                path,
+                format!(
+                    "{} is {} but page 1 is {}; all pages of a stack must match",
+                    page_label(pages),
+                    info.describe(),
+                    first.describe()
+                ),
+            ));
+        }
+        pages += 1;
+    }
+    let shape = [first.width as usize, first.height as usize, pages];
+    let what = format!(
+        "{} ({}x{}x{pages} {})",
+        path.display(),
+        first.width,
+        first.height,
+        first.kind
+    );
+    limits.check(what, bytes_for(shape, first.kind.bytes()))?;
+
+    // Pass 2: decode. The check above bounds the total, so the products fit in usize.
+    let page_voxels = shape[0] * shape[1];
+    let mut data = VoxelData::with_capacity(first.kind, page_voxels * pages);
+    let mut dec = open(path)?.with_limits(page_limits(&first, limits));
+    let mut buf = DecodingResult::U8(Vec::new());
+    for z in 0..pages {
+        if z > 0 {
+            dec.next_image().map_err(|e| tiff_error(path, Some(z), e))?;
+        }
+        decode_page(&mut dec, path, Some(z), &first, &mut buf, &mut data)?;
+    }
+    Ok(Volume {
+        shape,
+        data,
+        voxel_size,
+    })
+}
+
+/// Opens `path` as a TIFF after checking its signature, with decoder limits for walking headers.
+pub(crate) fn open(path: &Path) -> Result<TiffDecoder> {
+    let io_err = |e: std::io::Error| Error::bad_input(path, one_line(&e.to_string()));
+    let mut file = File::open(path).map_err(io_err)?;
+    let mut magic = [0u8; 4];
+    let got = read_up_to(&mut file, &mut magic).map_err(io_err)?;
+    if got == 0 {
+        return Err(Error::bad_input(
+            path,
+            "not a TIFF file (the file is empty)",
+        ));
+    }
+    // Classic TIFF is "II*\0" / "MM\0*"; BigTIFF uses 43 ('+') in place of 42 ('*').
+    if !matches!(&magic[..got], b"II*\0" | b"MM\0*" | b"II+\0" | b"MM\0+") {
+        return Err(Error::bad_input(
+            path,
+            "not a TIFF file (no TIFF signature); a raw file needs its shape, sample type and byte order",
+        ));
+    }
+    let file = File::open(path).map_err(io_err)?;
+    // Walking headers decodes no pixels: the decoder's buffer limit (which also bounds decoded
+    // tag values) only needs to fit tags.
+    let mut header_limits = Limits::default();
+    header_limits.decoding_buffer_size = MAX_TAG_BYTES;
+    header_limits.ifd_value_size = MAX_TAG_BYTES;
+    Decoder::new(BufReader::new(file))
+        .map(|d| d.with_limits(header_limits))
+        .map_err(|e| tiff_error(path, Some(0), e))
+}
+
+/// Decoder limits while decoding pages of size `info`: one page of output (or the tag limit,
+/// since the crate bounds decoded tag values by the same number), and compressed strips of at
+/// most twice a page (LZW, the worst of the supported codecs, expands incompressible data by
+/// at most 12/8 with 12-bit codes: TIFF 6.0 spec, section 13 [from memory]; the factor 2 is our
+/// margin).
+pub(crate) fn page_limits(info: &PageInfo, limits: &ReadLimits) -> Limits {
+    let page = info.bytes().unwrap_or(u64::MAX).min(limits.max_bytes);
+    let mut l = Limits::default();
+    l.decoding_buffer_size = usize::try_from(page)
+        .unwrap_or(usize::MAX)
+        .max(MAX_TAG_BYTES);
+    l.intermediate_buffer_size =
+        usize::try_from(page.saturating_mul(2).saturating_add(1 << 20)).unwrap_or(usize::MAX);
+    l.ifd_value_size = MAX_TAG_BYTES;
+    l
+}
+
+/// Reads as many bytes as are available, up to `buf.len()`.
+fn read_up_to(file: &mut File, buf: &mut [u8]) -> std::io::Result<usize> {
+    let mut got = 0;
+    while got < buf.len() {
+        match file.read(&mut buf[got..])? {
+            0 => break,
+            n => got += n,
+        }
+    }
+    Ok(got)
+}
+
+/// Size and sample type of the current page, refusing anything but grey samples we support.
+pub(crate) fn page_info(dec: &mut TiffDecoder, path: &Path, z: usize) -> Result<PageInfo> {
+    let err = |e| tiff_error(path, Some(z), e);
+    let (width, height) = dec.dimensions().map_err(err)?;
+    let color = dec.colortype().map_err(err)?;
+    // SampleFormat: 1 = unsigned integer (the default), 3 = IEEE float (TIFF 6.0, section 19 [from memory]).
+    let format = dec
+        .find_tag_unsigned_vec::<u16>(Tag::SampleFormat)
+        .map_err(err)?
+        .and_then(|v| v.first().copied())
+        .unwrap_or(1);
+    let kind = match (color, format) {
+        (tiff::ColorType::Gray(8), 1) => RawType::U8,
+        (tiff::ColorType::Gray(16), 1) => RawType::U16,
+        (tiff::ColorType::Gray(32), 3) => RawType::F32,
+        (tiff::ColorType::Gray(bits), f) => {
+            let kind = match f {
+                1 => "unsigned",
+                2 => "signed",
+                3 => "float",
+                _ => "unknown-format",
+            };
+            return Err(Error::bad_input(
+                path,
+                format!(
+                    "{}: {bits}-bit {kind} samples are not supported (use 8- or 16-bit unsigned or 32-bit float grey)",
+                    page_label(z)
+                ),
+            ));
+        }
+        (other, _) => {
+            return Err(Error::bad_input(
+                path,
+                format!(
+                    "{}: colour type {other:?} is not supported; convert the image to one grey channel",
+                    page_label(z)
+                ),
+            ));
+        }
+    };
+    Ok(PageInfo {
+        width,
+        height,
+        kind,
+    })
+}
+
+/// Decodes the current page (already checked to be `info`) and appends it to `out`.
+pub(crate) fn decode_page(
+    dec: &mut TiffDecoder,
+    path: &Path,
+    z: Option<usize>,
+    info: &PageInfo,
+    buf: &mut DecodingResult,
+    out: &mut VoxelData,
+) -> Result<()> {
+    dec.read_image_to_buffer(buf)
+        .map_err(|e| tiff_error(path, z, e))?;
+    let expected = info.width as usize * info.height as usize;
+    let short = |got: usize| {
+        Error::bad_input(
+            path,
+            format!(
+                "{}decoded {got} samples, expected {expected}",
+                z.map(|z| format!("{}: ", page_label(z)))
+                    .unwrap_or_default()
+            ),
+        )
+    };
+    match (buf, out) {
+        (DecodingResult::U8(src), VoxelData::U8(dst)) if src.len() == expected => {
+            dst.extend_from_slice(src)
+        }
+        (DecodingResult::U16(src), VoxelData::U16(dst)) if src.len() == expected => {
+            dst.extend_from_slice(src)
+        }
+        (DecodingResult::F32(src), VoxelData::F32(dst)) if src.len() == expected => {
+            dst.extend_from_slice(src)
+        }
+        (DecodingResult::U8(s), _) => return Err(short(s.len())),
+        (DecodingResult::U16(s), _) => return Err(short(s.len())),
+        (DecodingResult::F32(s), _) => return Err(short(s.len())),
+        _ => {
+            return Err(Error::bad_input(
+                path,
+                "decoded samples of an unexpected type",
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// Turns a decoder error into a one-line [`Error::BadInput`] naming the file and page.
+pub(crate) fn tiff_error(path: &Path, z: Option<usize>, e: TiffError) -> Error {
+    let msg = match e {
+        TiffError::IoError(io) if io.kind() == std::io::ErrorKind::UnexpectedEof => {
+            "the file ends early (truncated?)".to_string()
+        }
+        TiffError::IoError(io) => format!("read error: {io}"),
+        TiffError::FormatError(f) => format!("corrupt TIFF: {f}"),
+        TiffError::UnsupportedError(u) => format!("unsupported TIFF feature: {u}"),
+        TiffError::LimitsExceeded => {
+            "a strip or tag is larger than the page can need (corrupt file?)".to_string()
+        }
+        other => format!("cannot decode: {other}"),
+    };
+    let msg = match z {
+        Some(z) => format!("{}: {msg}", page_label(z)),
+        None => msg,
+    };
+    Error::bad_input(path, one_line(&msg))
+}
+
+/// Resolutions of 72 and 96 pixels per inch are what many writers store when they know
+/// nothing about the pixel size (screen defaults): common practice, so they are ignored.
+const PLACEHOLDER_DPI: [f64; 2] = [72.0, 96.0];
+
+/// Voxel size stated by the current page, if any: in-plane from XResolution/YResolution with
+/// ResolutionUnit (TIFF 6.0, section 8 [from memory]), or with the `unit=` key of the
+/// ImageDescription when ResolutionUnit is "none"; slice spacing from `spacing=`. Unreadable
+/// or implausible tags are ignored rather than failing the load: the user can always give
+/// the voxel size explicitly.
+pub(crate) fn file_voxel_size(dec: &mut TiffDecoder, path: &Path) -> Option<VoxelSize> {
+    let description = dec
+        .find_tag(Tag::ImageDescription)
+        .ok()
+        .flatten()
+        .and_then(|v| v.into_string().ok())
+        .unwrap_or_default();
+    let desc = Description::parse(&description);
+    let res_unit = dec
+        .find_tag_unsigned::<u16>(Tag::ResolutionUnit)
+        .ok()
+        .flatten();
+    let xres = rational(dec.find_tag(Tag::XResolution).ok().flatten());
+    let yres = rational(dec.find_tag(Tag::YResolution).ok().flatten());
+
+    let mut notes = Vec::new();
+    let in_plane = xres.and_then(|x| {
+        let (metres_per_unit, unit_name) = match res_unit {
+            Some(3) => (1e-2, "cm".to_string()),
+            Some(2) if PLACEHOLDER_DPI.contains(&x) => return None,
+            Some(2) => (0.0254, "inch".to_string()),
+            _ => (desc.unit?, desc.unit_name.clone()?),
+        };
+        if let Some(y) = yres
+            && (y - x).abs() > 1e-3 * x
+        {
+            notes.push(format!(
+                "YResolution {y} differs from XResolution {x}; using x"
+            ));
+        }
+        let size = metres_per_unit / x;
+        plausible(size).then(|| (size, format!("XResolution {x} pixels/{unit_name}")))
+    });
+    let spacing = desc
+        .spacing
+        .zip(desc.unit)
+        .map(|(s, u)| s * u)
+        .filter(|&s| plausible(s));
+
+    let (metres, detail, slice_spacing) = match (in_plane, spacing) {
+        // Same value twice: keep the description's, written in full precision.
+        (Some((xy, tag)), Some(z)) if (z - xy).abs() <= 1e-6 * xy => {
+            (z, format!("{tag} and ImageDescription spacing"), None)
+        }
+        (Some((xy, tag)), Some(z)) => {
+            notes.push(format!(
+                "slice spacing {} differs from the in-plane size: voxels are not cubic",
+                format_length(z)
+            ));
+            (xy, tag, Some(z))
+        }
+        (Some((xy, tag)), None) => (xy, tag, None),
+        (None, Some(z)) => (z, "ImageDescription spacing".to_string(), None),
+        (None, None) => return None,
+    };
+    let detail = std::iter::once(detail)
+        .chain(notes)
+        .collect::<Vec<_>>()
+        .join("; ");
+    Some(VoxelSize {
+        metres,
+        source: VoxelSizeSource::File {
+            path: path.to_path_buf(),
+            detail,
+            slice_spacing,
+        },
+    })
+}
+
+/// Voxel sizes outside 0.1 nm – 1 m are not images of porous media; treat them as garbage.
+fn plausible(metres: f64) -> bool {
+    metres.is_finite() && (1e-10..=1.0).contains(&metres)
+}
+
+fn rational(v: Option<tiff::decoder::ifd::Value>) -> Option<f64> {
+    use tiff::decoder::ifd::Value;
+    let x = match v? {
+        Value::Rational(n, d) if d != 0 => f64::from(n) / f64::from(d),
+        Value::Float(f) => f64::from(f),
+        Value::Double(f) => f,
+        _ => return None,
+    };
+    (x.is_finite() && x > 0.0).then_some(x)
+}
+
+/// The `key=value` lines of an ImageDescription that matter for the voxel size.
+#[derive(Debug, Default, PartialEq)]
+struct Description {
+    /// Metres per unit of the `unit=` key.
+    unit: Option<f64>,
+    unit_name: Option<String>,
+    /// The `spacing=` value, in that unit.
+    spacing: Option<f64>,
+}
+
+impl Description {
+    fn parse(text: &str) -> Description {
+        let mut d = Description::default();
+        for line in text.lines() {
+            let Some((key, value)) = line.split_once('=') else {
+                continue;
+            };
+            let value = value.trim();
+            match key.trim() {
+                "unit" => {
+                    // Some writers escape the micro sign as the literal text "\u00B5".
+                    let name = value.replace("\\u00B5", "µ").replace("\\u00b5", "µ");
+                    d.unit = super::unit_to_metres(&name);
+                    d.unit_name = d.unit.map(|_| name);
+                }
+                "spacing" => d.spacing = value.parse().ok().filter(|s: &f64| *s > 0.0),
+                _ => {}
+            }
+        }
+        d
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn description_keys() {
+        let d = Description::parse(
+            "writer=some tool\nimages=10\nunit=micron\nspacing=2.5\nloop=false\n",
+        );
+        assert_eq!(d.unit, Some(1e-6));
+        assert_eq!(d.spacing, Some(2.5));
+        let d = Description::parse("unit=\\u00B5m\nspacing=0.5");
+        assert_eq!(d.unit, Some(1e-6));
+        let d = Description::parse("unit=pixel\nspacing=-1\nnonsense");
+        assert_eq!(d, Description::default());
+    }
+
+    #[test]
+    fn page_labels_are_one_based_with_z() {
+        assert_eq!(page_label(0), "page 1 (z = 0)");
+    }
+}

@@ -1,0 +1,152 @@
+//! Lengths with units, as users type them ("2.5um", "2.5 µm", "800nm", "1e-6m") and as image
+//! files store them (TIFF resolution units, "unit=micron" in an image description). Everything
+//! is converted to metres, the SI unit voxperm uses internally and in its result files.
+
+use crate::{Error, Result};
+
+/// Units [`parse_length`] accepts, for error messages.
+pub const ACCEPTED_UNITS: &str = "m, cm, mm, um (also µm, μm, micron), nm";
+
+/// Size of one unit in metres, for the unit names users and image writers use; None when
+/// the name is not a length unit. Case-insensitive.
+pub fn unit_to_metres(unit: &str) -> Option<f64> {
+    let u = unit.trim().to_lowercase();
+    // Both the micro sign (U+00B5) and the Greek mu (U+03BC) occur in the wild.
+    let metres = match u.as_str() {
+        "m" | "metre" | "metres" | "meter" | "meters" => 1.0,
+        "cm" | "centimetre" | "centimetres" | "centimeter" | "centimeters" => 1e-2,
+        "mm" | "millimetre" | "millimetres" | "millimeter" | "millimeters" => 1e-3,
+        "um" | "µm" | "μm" | "micron" | "microns" | "micrometre" | "micrometres" | "micrometer"
+        | "micrometers" => 1e-6,
+        "nm" | "nanometre" | "nanometres" | "nanometer" | "nanometers" => 1e-9,
+        _ => return None,
+    };
+    Some(metres)
+}
+
+/// Parses a positive length such as "2.5um", "2.5 µm", "800nm", "0.01mm", "1e-6m" into metres.
+///
+/// A bare number is refused: a voxel size without a unit is the classic factor-10⁶ mistake.
+pub fn parse_length(s: &str) -> Result<f64> {
+    let text = s.trim();
+    let (number, unit) = split_number(text).ok_or_else(|| {
+        Error::Usage(format!(
+            "'{s}' is not a length: expected a number and a unit, e.g. 2.5um (units: {ACCEPTED_UNITS})"
+        ))
+    })?;
+    let unit = unit.trim();
+    if unit.is_empty() {
+        return Err(Error::Usage(format!(
+            "length '{s}' has no unit; add one of {ACCEPTED_UNITS}, e.g. {number}um"
+        )));
+    }
+    let Some(scale) = unit_to_metres(unit) else {
+        return Err(Error::Usage(format!(
+            "'{s}': '{unit}' is not a length unit; accepted units: {ACCEPTED_UNITS}"
+        )));
+    };
+    let metres = number * scale;
+    if !(metres.is_finite() && metres > 0.0) {
+        return Err(Error::Usage(format!(
+            "length '{s}' must be positive and finite"
+        )));
+    }
+    Ok(metres)
+}
+
+/// Splits "1e-6m" into (1e-6, "m"): the longest prefix that parses as a number wins, so an
+/// exponent is taken when it is complete and left to the unit otherwise ("2.5em" → 2.5, "em").
+fn split_number(text: &str) -> Option<(f64, &str)> {
+    let candidate_end = text
+        .char_indices()
+        .find(|&(_, c)| !(c.is_ascii_digit() || matches!(c, '.' | '+' | '-' | 'e' | 'E')))
+        .map_or(text.len(), |(i, _)| i);
+    // All candidate characters are ASCII, so every byte index below is a char boundary.
+    (1..=candidate_end)
+        .rev()
+        .find_map(|end| text[..end].parse::<f64>().ok().map(|v| (v, &text[end..])))
+}
+
+/// Formats a length in metres with a readable unit, e.g. 2.5e-6 → "2.5 µm".
+pub fn format_length(metres: f64) -> String {
+    let (scale, unit) = match metres.abs() {
+        m if m >= 1.0 => (1.0, "m"),
+        m if m >= 1e-3 => (1e3, "mm"),
+        m if m >= 1e-6 => (1e6, "µm"),
+        _ => (1e9, "nm"),
+    };
+    let v = metres * scale;
+    // Round to 6 significant figures so binary noise (2.4999999999 µm) does not show.
+    let digits = (5 - v.abs().log10().floor() as i32).clamp(0, 12) as usize;
+    let s = format!("{v:.digits$}");
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
+    format!("{s} {unit}")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn close(a: f64, b: f64) -> bool {
+        (a - b).abs() <= 1e-12 * b.abs()
+    }
+
+    #[test]
+    fn accepted_spellings() {
+        for (s, m) in [
+            ("2.5um", 2.5e-6),
+            ("2.5 µm", 2.5e-6),
+            ("2.5μm", 2.5e-6),
+            ("3.2 um", 3.2e-6),
+            ("800nm", 800e-9),
+            ("0.01mm", 1e-5),
+            ("1e-6m", 1e-6),
+            ("1E-6 m", 1e-6),
+            ("5 micron", 5e-6),
+            ("0.5cm", 5e-3),
+            ("  7UM ", 7e-6),
+            ("+4um", 4e-6),
+        ] {
+            let got = parse_length(s).unwrap_or_else(|e| panic!("{s}: {e}"));
+            assert!(close(got, m), "{s}: {got} vs {m}");
+        }
+    }
+
+    #[test]
+    fn bare_number_and_wrong_units_are_usage_errors() {
+        for s in ["2.5", "5kg", "5s", "5 sec", "um", "", "2.5em", "5 px"] {
+            match parse_length(s) {
+                Err(Error::Usage(msg)) => assert!(msg.contains("um"), "{s}: {msg}"),
+                other => panic!("{s}: expected a usage error, got {other:?}"),
+            }
+        }
+        let Err(Error::Usage(msg)) = parse_length("5kg") else {
+            panic!()
+        };
+        assert!(msg.contains("not a length unit"), "{msg}");
+        let Err(Error::Usage(msg)) = parse_length("2.5") else {
+            panic!()
+        };
+        assert!(msg.contains("no unit"), "{msg}");
+    }
+
+    #[test]
+    fn non_positive_or_infinite_is_refused() {
+        for s in ["0um", "-2um", "1e400m", "nanum"] {
+            assert!(matches!(parse_length(s), Err(Error::Usage(_))), "{s}");
+        }
+    }
+
+    #[test]
+    fn formats_lengths() {
+        assert_eq!(format_length(2.5e-6), "2.5 µm");
+        assert_eq!(format_length(2.4999999999e-6), "2.5 µm");
+        assert_eq!(format_length(800e-9), "800 nm");
+        assert_eq!(format_length(0.0123), "12.3 mm");
+        assert_eq!(format_length(1.0), "1 m");
+    }
+}

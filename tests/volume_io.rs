@@ -1,0 +1,702 @@
+//! Volume I/O round trips and hostile-input checks: every supported format is written and read
+//! back voxel for voxel; every kind of bad input must give the right error variant with a
+//! one-line message naming the file, and never a panic. All files are generated here.
+
+use std::fs;
+use std::io::{Cursor, Write};
+use std::path::Path;
+
+use tiff::encoder::colortype::{ColorType, Gray8, Gray16, Gray32Float, RGB8};
+use tiff::encoder::{Compression, Rational, TiffEncoder, TiffValue};
+use tiff::tags::Tag;
+use voxperm::Error;
+use voxperm::volume::{
+    self, Crop, CropSpec, Endian, RawSpec, RawType, ReadLimits, Segmentation, TiffCompression,
+    Volume, VoxelData, VoxelSizeSource, load, parse_length, segment, write_raw, write_tiff_stack,
+};
+
+// ---------- helpers ----------
+
+/// Deterministic pseudo-random sequence (64-bit LCG with Knuth's MMIX constants,
+/// from memory; any full-period constants would do)
+/// so test volumes have varied values without a random-number dependency.
+fn lcg(seed: u64) -> impl FnMut() -> u64 {
+    let mut s = seed;
+    move || {
+        s = s
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        s >> 33
+    }
+}
+
+fn volume_of(kind: RawType, shape: [usize; 3], seed: u64) -> Volume {
+    let n = shape.iter().product();
+    let mut r = lcg(seed);
+    let data = match kind {
+        RawType::U8 => VoxelData::U8((0..n).map(|_| r() as u8).collect()),
+        RawType::U16 => VoxelData::U16((0..n).map(|_| r() as u16).collect()),
+        // Negative, fractional, tiny and large values: all must survive bit for bit.
+        RawType::F32 => VoxelData::F32(
+            (0..n)
+                .map(|_| (r() as i32 - (1 << 30)) as f32 * 1.7e-3 / (1 + r() % 1000) as f32)
+                .collect(),
+        ),
+    };
+    Volume::new(shape, data).unwrap()
+}
+
+/// Voxel equality that compares f32 by bit pattern.
+fn same_voxels(a: &VoxelData, b: &VoxelData) -> bool {
+    match (a, b) {
+        (VoxelData::F32(x), VoxelData::F32(y)) => {
+            x.len() == y.len() && x.iter().zip(y).all(|(p, q)| p.to_bits() == q.to_bits())
+        }
+        _ => a == b,
+    }
+}
+
+fn limits() -> ReadLimits {
+    ReadLimits::new(1 << 30)
+}
+
+/// Writes one single-page TIFF with the tiff crate's encoder.
+fn write_page<C: ColorType>(path: &Path, w: u32, h: u32, data: &[C::Inner], comp: Compression)
+where
+    [C::Inner]: TiffValue,
+{
+    let mut buf = Cursor::new(Vec::new());
+    TiffEncoder::new(&mut buf)
+        .unwrap()
+        .with_compression(comp)
+        .write_image::<C>(w, h, data)
+        .unwrap();
+    fs::write(path, buf.into_inner()).unwrap();
+}
+
+/// Asserts a BadInput whose one-line message names `file` and contains `fragment`.
+fn assert_bad_input(result: voxperm::Result<Volume>, file: &str, fragment: &str) {
+    match result {
+        Err(e @ Error::BadInput { .. }) => {
+            let msg = e.to_string();
+            assert!(msg.contains(file), "message does not name {file}: {msg}");
+            assert!(msg.contains(fragment), "expected '{fragment}' in: {msg}");
+            assert!(!msg.contains('\n'), "message is not one line: {msg:?}");
+        }
+        other => panic!("expected BadInput naming {file}, got {other:?}"),
+    }
+}
+
+// ---------- round trips ----------
+
+#[test]
+fn tiff_stack_round_trip_every_type_and_compression() {
+    let dir = tempfile::tempdir().unwrap();
+    for kind in [RawType::U8, RawType::U16, RawType::F32] {
+        for comp in [
+            TiffCompression::None,
+            TiffCompression::Lzw,
+            TiffCompression::Deflate,
+        ] {
+            let vol = volume_of(kind, [7, 5, 4], 11);
+            let path = dir.path().join(format!("stack_{kind}_{comp:?}.tif"));
+            write_tiff_stack(&path, &vol, comp, None).unwrap();
+            let back = load(&path, None, &limits()).unwrap();
+            assert_eq!(back.shape, vol.shape, "{kind} {comp:?}");
+            assert_eq!(back.data.kind(), kind);
+            assert!(same_voxels(&back.data, &vol.data), "{kind} {comp:?}");
+            assert_eq!(back.voxel_size, None);
+        }
+    }
+}
+
+#[test]
+fn multi_strip_compressed_pages_round_trip() {
+    // 1000 x 600 u16 = 1.2 MB per page: the encoder splits pages larger than 1 MB into several
+    // strips, so this exercises multi-strip LZW/Deflate pages with the horizontal predictor.
+    let dir = tempfile::tempdir().unwrap();
+    let vol = volume_of(RawType::U16, [1000, 600, 2], 5);
+    for comp in [TiffCompression::Lzw, TiffCompression::Deflate] {
+        let path = dir.path().join(format!("big_{comp:?}.tif"));
+        write_tiff_stack(&path, &vol, comp, None).unwrap();
+        let back = load(&path, None, &limits()).unwrap();
+        assert_eq!(back.shape, vol.shape);
+        assert!(same_voxels(&back.data, &vol.data), "{comp:?}");
+    }
+}
+
+#[test]
+fn packbits_pages_from_the_tiff_encoder_are_read() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("packbits.tif");
+    let (w, h) = (9u32, 6u32);
+    let pages: Vec<Vec<u8>> = (0..3)
+        .map(|z| (0..w * h).map(|i| ((i / 4 + z * 7) % 5) as u8).collect())
+        .collect();
+    let mut buf = Cursor::new(Vec::new());
+    let mut enc = TiffEncoder::new(&mut buf)
+        .unwrap()
+        .with_compression(Compression::Packbits);
+    for p in &pages {
+        enc.write_image::<Gray8>(w, h, p).unwrap();
+    }
+    fs::write(&path, buf.into_inner()).unwrap();
+    let vol = load(&path, None, &limits()).unwrap();
+    assert_eq!(vol.shape, [9, 6, 3]);
+    assert_eq!(vol.data, VoxelData::U8(pages.concat()));
+}
+
+#[test]
+fn bigtiff_from_the_tiff_encoder_is_read() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("big.tif");
+    let vol = volume_of(RawType::F32, [5, 4, 2], 8);
+    let VoxelData::F32(v) = &vol.data else {
+        unreachable!()
+    };
+    let mut buf = Cursor::new(Vec::new());
+    let mut enc = TiffEncoder::new_big(&mut buf).unwrap();
+    for page in v.chunks(20) {
+        enc.write_image::<Gray32Float>(5, 4, page).unwrap();
+    }
+    fs::write(&path, buf.into_inner()).unwrap();
+    let back = load(&path, None, &limits()).unwrap();
+    assert_eq!(back.shape, [5, 4, 2]);
+    assert!(same_voxels(&back.data, &vol.data));
+}
+
+#[test]
+fn limit_boundary_is_inclusive() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("small.tif");
+    let vol = volume_of(RawType::U16, [4, 4, 3], 6);
+    write_tiff_stack(&path, &vol, TiffCompression::Deflate, None).unwrap();
+    // 4 * 4 * 3 voxels * 2 bytes = 96 bytes.
+    assert!(load(&path, None, &ReadLimits::new(96)).is_ok());
+    match load(&path, None, &ReadLimits::new(95)) {
+        Err(Error::TooLarge {
+            needed_bytes: 96,
+            limit_bytes: 95,
+            ..
+        }) => {}
+        other => panic!("expected TooLarge, got {other:?}"),
+    }
+}
+
+#[test]
+fn slice_folder_in_natural_order_equals_the_stack() {
+    let dir = tempfile::tempdir().unwrap();
+    let slices = dir.path().join("slices");
+    fs::create_dir(&slices).unwrap();
+    let shape = [6, 4, 12];
+    let vol = volume_of(RawType::U16, shape, 3);
+    let VoxelData::U16(v) = &vol.data else {
+        unreachable!()
+    };
+    let page = shape[0] * shape[1];
+    // s1..s12: plain string order would put s10, s11, s12 before s2.
+    for z in 0..shape[2] {
+        let comp = if z % 2 == 0 {
+            Compression::Uncompressed
+        } else {
+            Compression::Lzw
+        };
+        let path = slices.join(format!("s{}.tif", z + 1));
+        write_page::<Gray16>(&path, 6, 4, &v[z * page..(z + 1) * page], comp);
+    }
+    // Files that are not slices must be ignored.
+    fs::write(slices.join("notes.txt"), "scan notes").unwrap();
+    fs::write(slices.join(".s0.tif"), "hidden metadata").unwrap();
+
+    let stack = dir.path().join("stack.tif");
+    write_tiff_stack(&stack, &vol, TiffCompression::None, None).unwrap();
+    let from_stack = load(&stack, None, &limits()).unwrap();
+    let from_folder = load(&slices, None, &limits()).unwrap();
+    assert_eq!(from_folder.shape, shape);
+    assert_eq!(from_folder.data, from_stack.data);
+    assert_eq!(from_folder.data, vol.data);
+
+    let names: Vec<String> = volume::slice_files(&slices)
+        .unwrap()
+        .iter()
+        .map(|p| p.file_name().unwrap().to_string_lossy().into_owned())
+        .collect();
+    assert_eq!(names[..3], ["s1.tif", "s2.tif", "s3.tif"]);
+    assert_eq!(names.last().unwrap(), "s12.tif");
+}
+
+#[test]
+fn raw_round_trip_little_and_big_endian() {
+    let dir = tempfile::tempdir().unwrap();
+    for kind in [RawType::U8, RawType::U16, RawType::F32] {
+        for endian in [Endian::Little, Endian::Big] {
+            let vol = volume_of(kind, [5, 3, 4], 7);
+            let path = dir.path().join(format!("vol_{kind}_{endian:?}.raw"));
+            write_raw(&path, &vol, endian).unwrap();
+            assert_eq!(
+                fs::metadata(&path).unwrap().len(),
+                60 * kind.bytes(),
+                "file size"
+            );
+            let spec = RawSpec {
+                shape: [5, 3, 4],
+                kind,
+                endian,
+            };
+            let back = load(&path, Some(&spec), &limits()).unwrap();
+            assert_eq!(back.shape, vol.shape);
+            assert!(same_voxels(&back.data, &vol.data), "{kind} {endian:?}");
+        }
+    }
+}
+
+#[test]
+fn raw_byte_order_is_what_the_spec_says() {
+    // Hand-written bytes, independent of our writer: 0x0102 big endian, then 0x0304.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("be.raw");
+    fs::write(&path, [1u8, 2, 3, 4]).unwrap();
+    let spec = |endian| RawSpec {
+        shape: [2, 1, 1],
+        kind: RawType::U16,
+        endian,
+    };
+    let be = load(&path, Some(&spec(Endian::Big)), &limits()).unwrap();
+    assert_eq!(be.data, VoxelData::U16(vec![0x0102, 0x0304]));
+    let le = load(&path, Some(&spec(Endian::Little)), &limits()).unwrap();
+    assert_eq!(le.data, VoxelData::U16(vec![0x0201, 0x0403]));
+}
+
+// ---------- voxel size ----------
+
+#[test]
+fn voxel_size_round_trips_through_tiff_tags() {
+    let dir = tempfile::tempdir().unwrap();
+    let vol = volume_of(RawType::U8, [4, 4, 3], 1);
+    for metres in [2.5e-6, 3.7e-6, 800e-9, 1.234567e-4] {
+        let path = dir.path().join("sized.tif");
+        write_tiff_stack(&path, &vol, TiffCompression::Lzw, Some(metres)).unwrap();
+        let back = load(&path, None, &limits()).unwrap();
+        let size = back.voxel_size.expect("voxel size read from the file");
+        assert_eq!(size.metres, metres, "exact via the description");
+        match &size.source {
+            VoxelSizeSource::File {
+                path: p,
+                slice_spacing,
+                ..
+            } => {
+                assert_eq!(p, &path);
+                assert_eq!(*slice_spacing, None);
+            }
+            other => panic!("expected a file source, got {other:?}"),
+        }
+        assert!(size.describe().contains("sized.tif"), "{}", size.describe());
+    }
+}
+
+#[test]
+fn voxel_size_from_resolution_tags_alone() {
+    // Written with the tiff crate: 4000 pixels per cm (ResolutionUnit 3 = cm, TIFF 6.0
+    // section 8, from memory) is 2.5 µm, and there is no ImageDescription.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("res.tif");
+    let mut buf = Cursor::new(Vec::new());
+    let mut enc = TiffEncoder::new(&mut buf).unwrap();
+    let mut img = enc.new_image::<Gray8>(3, 2).unwrap();
+    img.encoder().write_tag(Tag::ResolutionUnit, 3u16).unwrap();
+    img.encoder()
+        .write_tag(Tag::XResolution, Rational { n: 4000, d: 1 })
+        .unwrap();
+    img.encoder()
+        .write_tag(Tag::YResolution, Rational { n: 4000, d: 1 })
+        .unwrap();
+    img.write_data(&[0u8; 6]).unwrap();
+    fs::write(&path, buf.into_inner()).unwrap();
+    let size = load(&path, None, &limits()).unwrap().voxel_size.unwrap();
+    assert!((size.metres - 2.5e-6).abs() < 1e-18, "{}", size.metres);
+}
+
+#[test]
+fn voxel_size_from_description_unit_and_spacing() {
+    // The widespread key=value description convention: pixels per `unit` in XResolution with
+    // ResolutionUnit "none", slice spacing in `spacing=`.
+    let dir = tempfile::tempdir().unwrap();
+    let write = |name: &str, spacing: &str| {
+        let path = dir.path().join(name);
+        let mut buf = Cursor::new(Vec::new());
+        let mut enc = TiffEncoder::new(&mut buf).unwrap();
+        for z in 0..2 {
+            let mut img = enc.new_image::<Gray8>(2, 2).unwrap();
+            img.encoder()
+                .write_tag(Tag::XResolution, Rational { n: 1, d: 5 })
+                .unwrap();
+            img.encoder()
+                .write_tag(Tag::YResolution, Rational { n: 1, d: 5 })
+                .unwrap();
+            if z == 0 {
+                let text = format!("images=2\nslices=2\nunit=micron\nspacing={spacing}\n");
+                img.encoder()
+                    .write_tag(Tag::ImageDescription, text.as_str())
+                    .unwrap();
+            }
+            img.write_data(&[1u8; 4]).unwrap();
+        }
+        fs::write(&path, buf.into_inner()).unwrap();
+        load(&path, None, &limits()).unwrap().voxel_size.unwrap()
+    };
+    let cubic = write("cubic.tif", "5.0");
+    assert!((cubic.metres - 5e-6).abs() < 1e-18);
+    let VoxelSizeSource::File { slice_spacing, .. } = &cubic.source else {
+        panic!()
+    };
+    assert_eq!(*slice_spacing, None);
+
+    let tall = write("tall.tif", "10");
+    assert!((tall.metres - 5e-6).abs() < 1e-18, "in-plane size wins");
+    let VoxelSizeSource::File {
+        slice_spacing,
+        detail,
+        ..
+    } = &tall.source
+    else {
+        panic!()
+    };
+    assert!((slice_spacing.unwrap() - 1e-5).abs() < 1e-18);
+    assert!(detail.contains("not cubic"), "{detail}");
+}
+
+#[test]
+fn no_physical_unit_means_no_voxel_size_and_user_value_wins() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("plain.tif");
+    // The tiff encoder writes XResolution 1/1 with ResolutionUnit "none" by default.
+    write_page::<Gray8>(&path, 2, 2, &[0, 1, 2, 3], Compression::Uncompressed);
+    let mut vol = load(&path, None, &limits()).unwrap();
+    assert_eq!(vol.voxel_size, None);
+    vol.set_user_voxel_size(parse_length("3.2 um").unwrap())
+        .unwrap();
+    let size = vol.voxel_size.unwrap();
+    assert_eq!(size.source, VoxelSizeSource::User);
+    assert!((size.metres - 3.2e-6).abs() < 1e-18);
+}
+
+// ---------- bad input ----------
+
+#[test]
+fn missing_path_is_bad_input() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("nowhere.tif");
+    assert_bad_input(
+        load(&path, None, &limits()),
+        "nowhere.tif",
+        "no such file or folder",
+    );
+}
+
+#[test]
+fn text_and_empty_files_are_not_tiff() {
+    let dir = tempfile::tempdir().unwrap();
+    let text = dir.path().join("readme.tif");
+    fs::write(&text, "this is not an image\n").unwrap();
+    assert_bad_input(
+        load(&text, None, &limits()),
+        "readme.tif",
+        "not a TIFF file",
+    );
+    let empty = dir.path().join("empty.tif");
+    fs::write(&empty, b"").unwrap();
+    assert_bad_input(
+        load(&empty, None, &limits()),
+        "empty.tif",
+        "not a TIFF file",
+    );
+    assert_bad_input(load(&empty, None, &limits()), "empty.tif", "empty");
+}
+
+#[test]
+fn truncated_tiff_names_file_and_page() {
+    let dir = tempfile::tempdir().unwrap();
+    let full = dir.path().join("full.tif");
+    let vol = volume_of(RawType::U16, [20, 10, 6], 9);
+    write_tiff_stack(&full, &vol, TiffCompression::None, None).unwrap();
+    let bytes = fs::read(&full).unwrap();
+    let half = dir.path().join("half.tif");
+    fs::write(&half, &bytes[..bytes.len() / 2]).unwrap();
+    assert_bad_input(load(&half, None, &limits()), "half.tif", "page ");
+}
+
+#[test]
+fn every_truncation_and_byte_flip_fails_cleanly() {
+    // Small LZW stack; each prefix must be refused (never read as a smaller volume, never a
+    // panic), and corrupted bytes must give Ok or a one-line error, never a panic.
+    let dir = tempfile::tempdir().unwrap();
+    let full = dir.path().join("small.tif");
+    let vol = volume_of(RawType::U8, [5, 4, 3], 2);
+    write_tiff_stack(&full, &vol, TiffCompression::Lzw, Some(1e-6)).unwrap();
+    let bytes = fs::read(&full).unwrap();
+    let cut = dir.path().join("cut.tif");
+    for len in 0..bytes.len() {
+        fs::write(&cut, &bytes[..len]).unwrap();
+        assert_bad_input(load(&cut, None, &limits()), "cut.tif", "");
+    }
+    for pos in 0..bytes.len() {
+        for value in [0x00u8, 0xff, 0x7f] {
+            let mut b = bytes.clone();
+            b[pos] = value;
+            fs::write(&cut, &b).unwrap();
+            match load(&cut, None, &ReadLimits::new(1 << 24)) {
+                Ok(v) => assert_eq!(v.len(), v.shape.iter().product::<usize>()),
+                Err(e) => assert!(!e.to_string().contains('\n'), "{e}"),
+            }
+        }
+    }
+}
+
+#[test]
+fn stack_pages_must_match() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("mixed.tif");
+    let mut buf = Cursor::new(Vec::new());
+    let mut enc = TiffEncoder::new(&mut buf).unwrap();
+    enc.write_image::<Gray8>(4, 4, &[0; 16]).unwrap();
+    enc.write_image::<Gray8>(4, 4, &[0; 16]).unwrap();
+    enc.write_image::<Gray8>(4, 3, &[0; 12]).unwrap();
+    fs::write(&path, buf.into_inner()).unwrap();
+    assert_bad_input(load(&path, None, &limits()), "mixed.tif", "page 3 (z = 2)");
+}
+
+#[test]
+fn colour_images_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("rgb.tif");
+    write_page::<RGB8>(&path, 2, 2, &[0; 12], Compression::Uncompressed);
+    assert_bad_input(load(&path, None, &limits()), "rgb.tif", "grey");
+}
+
+fn slice_folder_with_odd_one(odd: impl FnOnce(&Path)) -> (tempfile::TempDir, std::path::PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let folder = dir.path().join("slices");
+    fs::create_dir(&folder).unwrap();
+    for z in [1, 2, 4] {
+        write_page::<Gray8>(
+            &folder.join(format!("img{z}.tiff")),
+            4,
+            3,
+            &[z as u8; 12],
+            Compression::Uncompressed,
+        );
+    }
+    odd(&folder.join("img3.tiff"));
+    (dir, folder)
+}
+
+#[test]
+fn slices_of_different_size_name_the_slice() {
+    let (_dir, folder) = slice_folder_with_odd_one(|p| {
+        write_page::<Gray8>(p, 4, 4, &[0; 16], Compression::Uncompressed)
+    });
+    assert_bad_input(load(&folder, None, &limits()), "img3.tiff", "4x4 u8");
+}
+
+#[test]
+fn slices_of_different_type_name_the_slice() {
+    let (_dir, folder) = slice_folder_with_odd_one(|p| {
+        write_page::<Gray32Float>(p, 4, 3, &[0.5; 12], Compression::Uncompressed)
+    });
+    assert_bad_input(load(&folder, None, &limits()), "img3.tiff", "f32");
+}
+
+#[test]
+fn empty_folder_and_raw_spec_on_folder() {
+    let dir = tempfile::tempdir().unwrap();
+    assert_bad_input(load(dir.path(), None, &limits()), "", "no .tif");
+    let spec = RawSpec {
+        shape: [1, 1, 1],
+        kind: RawType::U8,
+        endian: Endian::Little,
+    };
+    assert!(matches!(
+        load(dir.path(), Some(&spec), &limits()),
+        Err(Error::Usage(_))
+    ));
+}
+
+#[test]
+fn raw_size_mismatch_gives_both_numbers() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("short.raw");
+    fs::write(&path, vec![0u8; 1000]).unwrap();
+    let spec = RawSpec {
+        shape: [10, 10, 10],
+        kind: RawType::U16,
+        endian: Endian::Little,
+    };
+    assert_bad_input(
+        load(&path, Some(&spec), &limits()),
+        "short.raw",
+        "1000 bytes",
+    );
+    assert_bad_input(
+        load(&path, Some(&spec), &limits()),
+        "short.raw",
+        "2000 bytes",
+    );
+}
+
+#[test]
+fn raw_over_the_limit_is_too_large() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("ok.raw");
+    fs::write(&path, vec![0u8; 1000]).unwrap();
+    let spec = RawSpec {
+        shape: [10, 10, 10],
+        kind: RawType::U8,
+        endian: Endian::Little,
+    };
+    match load(&path, Some(&spec), &ReadLimits::new(999)) {
+        Err(Error::TooLarge {
+            needed_bytes: 1000,
+            limit_bytes: 999,
+            what,
+        }) => assert!(what.contains("ok.raw"), "{what}"),
+        other => panic!("expected TooLarge, got {other:?}"),
+    }
+}
+
+/// A minimal little-endian TIFF of `pages` IFDs, each claiming a `width` x `height` page of
+/// `bits`-bit samples whose single strip lies beyond the end of the file. Layout from TIFF 6.0,
+/// sections 2 (header, IFD entries of 12 bytes) and 4 (grey-scale tags) [from memory; the
+/// within-limit case below checks the tiff crate accepts it as a TIFF].
+fn hostile_header(width: u32, height: u32, bits: u16, sample_format: u16, pages: u32) -> Vec<u8> {
+    const SHORT: u16 = 3;
+    const LONG: u16 = 4;
+    let entries: [(u16, u16, u32); 10] = [
+        (256, LONG, width),                     // ImageWidth
+        (257, LONG, height),                    // ImageLength
+        (258, SHORT, u32::from(bits)),          // BitsPerSample
+        (259, SHORT, 1),                        // Compression: none
+        (262, SHORT, 1),                        // PhotometricInterpretation: BlackIsZero
+        (273, LONG, 1 << 20),                   // StripOffsets: past the end of the file
+        (277, SHORT, 1),                        // SamplesPerPixel
+        (278, LONG, height),                    // RowsPerStrip: one strip
+        (279, LONG, u32::MAX),                  // StripByteCounts
+        (339, SHORT, u32::from(sample_format)), // SampleFormat
+    ];
+    let ifd_len = 2 + 12 * entries.len() as u32 + 4;
+    let mut b = Vec::new();
+    b.extend_from_slice(b"II");
+    b.extend_from_slice(&42u16.to_le_bytes());
+    b.extend_from_slice(&8u32.to_le_bytes());
+    for p in 0..pages {
+        let start = 8 + p * ifd_len;
+        b.extend_from_slice(&(entries.len() as u16).to_le_bytes());
+        for (tag, ty, value) in entries {
+            b.extend_from_slice(&tag.to_le_bytes());
+            b.extend_from_slice(&ty.to_le_bytes());
+            b.extend_from_slice(&1u32.to_le_bytes());
+            // A SHORT sits in the first two bytes of the value field; as little-endian u32
+            // that is the same four bytes.
+            b.extend_from_slice(&value.to_le_bytes());
+        }
+        let next = if p + 1 < pages { start + ifd_len } else { 0 };
+        b.extend_from_slice(&next.to_le_bytes());
+    }
+    b
+}
+
+#[test]
+fn huge_claimed_size_is_refused_before_allocating() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("huge.tif");
+    // 100000 x 100000 u8, one page: 1e10 bytes claimed by a file of ~140 bytes.
+    fs::write(&path, hostile_header(100_000, 100_000, 8, 1, 1)).unwrap();
+    match load(&path, None, &ReadLimits::new(1 << 20)) {
+        Err(e @ Error::TooLarge { .. }) => {
+            let Error::TooLarge {
+                needed_bytes,
+                limit_bytes,
+                ref what,
+            } = e
+            else {
+                unreachable!()
+            };
+            assert_eq!(needed_bytes, 10_000_000_000);
+            assert_eq!(limit_bytes, 1 << 20);
+            assert!(what.contains("huge.tif"), "{what}");
+            assert!(e.to_string().contains("--max-memory"), "{e}");
+        }
+        other => panic!("expected TooLarge, got {other:?}"),
+    }
+    // Three such pages of f32: the total over all pages counts (3 * 4e10 bytes, ~112 GiB,
+    // which this machine could not allocate: reaching TooLarge shows nothing was allocated).
+    fs::write(&path, hostile_header(100_000, 100_000, 32, 3, 3)).unwrap();
+    match load(&path, None, &ReadLimits::new(64 << 30)) {
+        Err(Error::TooLarge { needed_bytes, .. }) => {
+            assert_eq!(needed_bytes, 120_000_000_000)
+        }
+        other => panic!("expected TooLarge, got {other:?}"),
+    }
+    // Within the limit the same header fails as a truncated file, not with a huge buffer.
+    fs::write(&path, hostile_header(1000, 1000, 8, 1, 1)).unwrap();
+    assert_bad_input(load(&path, None, &limits()), "huge.tif", "page 1");
+}
+
+#[test]
+fn unknown_label_names_label_and_present_values() {
+    let vol = Volume::new([4, 1, 1], VoxelData::U8(vec![1, 2, 2, 7])).unwrap();
+    match segment(&vol, &Segmentation::default()) {
+        Err(Error::Usage(msg)) => {
+            assert!(msg.contains("label 0"), "{msg}");
+            assert!(msg.contains("1, 2, 7"), "{msg}");
+        }
+        other => panic!("expected a usage error, got {other:?}"),
+    }
+    let mask = segment(&vol, &Segmentation::Labels(vec![2, 7])).unwrap();
+    assert_eq!(mask.as_slice(), &[false, true, true, true]);
+}
+
+#[test]
+fn non_length_unit_is_usage_error() {
+    for s in ["5kg", "5s", "2.5"] {
+        match parse_length(s) {
+            Err(Error::Usage(msg)) => assert!(msg.contains("um"), "{msg}"),
+            other => panic!("{s}: expected a usage error, got {other:?}"),
+        }
+    }
+}
+
+#[test]
+fn bad_crop_is_usage_error_and_good_crop_cuts() {
+    let vol = volume_of(RawType::U8, [6, 5, 4], 4);
+    for s in ["0:7,:,:", ":,3:3,:", "1:2,:", "x:y,:,:"] {
+        let r = CropSpec::parse(s).and_then(|c| c.resolve(vol.shape));
+        assert!(matches!(r, Err(Error::Usage(_))), "{s}: {r:?}");
+    }
+    let c = Crop::parse("2:5,:,1:3", vol.shape).unwrap();
+    let out = volume::crop(&vol, &c);
+    assert_eq!(out.shape, [3, 5, 2]);
+    let (VoxelData::U8(a), VoxelData::U8(b)) = (&vol.data, &out.data) else {
+        unreachable!()
+    };
+    assert_eq!(b[0], a[vol.index(2, 0, 1)]);
+    assert_eq!(*b.last().unwrap(), a[vol.index(4, 4, 2)]);
+}
+
+#[test]
+fn writer_refuses_missing_folder_and_leaves_no_partial_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let vol = volume_of(RawType::U8, [2, 2, 2], 1);
+    let missing = dir.path().join("no_such_dir").join("out.tif");
+    match write_tiff_stack(&missing, &vol, TiffCompression::None, None) {
+        Err(e @ Error::Output { .. }) => assert!(e.to_string().contains("does not exist"), "{e}"),
+        other => panic!("expected an output error, got {other:?}"),
+    }
+    let out = dir.path().join("out.raw");
+    volume::write_atomically(&out, |w| {
+        w.write_all(b"half").unwrap();
+        Err(Error::Internal("stop".into()))
+    })
+    .unwrap_err();
+    assert!(!out.exists());
+    assert_eq!(fs::read_dir(dir.path()).unwrap().count(), 0);
+}
