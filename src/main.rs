@@ -1,4 +1,6 @@
 //! Thin binary: parse the command line, run the library, map errors to exit codes.
+mod cli;
+
 fn main() {
-    std::process::exit(voxperm::cli::main());
+    std::process::exit(cli::main());
 }

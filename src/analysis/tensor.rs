@@ -82,17 +82,15 @@ pub fn jacobi_eigen(mut a: [[f64; 3]; 3]) -> ([f64; 3], [[f64; 3]; 3]) {
             let c = 1.0 / (t * t + 1.0).sqrt();
             let s = t * c;
             // A ← Jᵀ A J with the rotation J in the (p, q) plane.
-            for k in 0..3 {
-                let akp = a[k][p];
-                let akq = a[k][q];
-                a[k][p] = c * akp - s * akq;
-                a[k][q] = s * akp + c * akq;
+            for row in a.iter_mut() {
+                let (akp, akq) = (row[p], row[q]);
+                row[p] = c * akp - s * akq;
+                row[q] = s * akp + c * akq;
             }
+            let (rp, rq) = (a[p], a[q]);
             for k in 0..3 {
-                let apk = a[p][k];
-                let aqk = a[q][k];
-                a[p][k] = c * apk - s * aqk;
-                a[q][k] = s * apk + c * aqk;
+                a[p][k] = c * rp[k] - s * rq[k];
+                a[q][k] = s * rp[k] + c * rq[k];
             }
             for row in v.iter_mut() {
                 let vp = row[p];

@@ -1,4 +1,53 @@
-//! Command-line front end.
+//! Command-line front end: argument definitions (clap derive), one file per subcommand, and the
+//! mapping from library errors to one-line messages and exit codes. No physics lives here.
+
+mod args;
+mod describe;
+mod estimate;
+mod progress;
+
+use clap::{Parser, Subcommand};
+use voxperm::error::exit;
+
+/// Permeability of segmented 3D images by lattice-Boltzmann flow simulation.
+#[derive(Parser, Debug)]
+#[command(name = "voxperm", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Simulate flow through a sample and report its permeability.
+    Estimate(estimate::EstimateArgs),
+    /// Geometry only: porosity, connectivity, surface, Kozeny–Carman, memory a solve needs.
+    Describe(describe::DescribeArgs),
+}
+
+/// Runs the command line and returns the process exit code.
 pub fn main() -> i32 {
-    0
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() {
+                exit::USAGE
+            } else {
+                exit::OK
+            };
+            let _ = e.print();
+            return code;
+        }
+    };
+    let result = match cli.command {
+        Command::Estimate(a) => estimate::run(a),
+        Command::Describe(a) => describe::run(a),
+    };
+    match result {
+        Ok(code) => code,
+        Err(e) => {
+            eprintln!("voxperm: error: {e}");
+            e.exit_code()
+        }
+    }
 }

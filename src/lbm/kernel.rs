@@ -70,6 +70,15 @@ struct Slots(*mut f32);
 unsafe impl Send for Slots {}
 unsafe impl Sync for Slots {}
 
+impl Slots {
+    /// The pointer. A method (not a field access) so closures capture the whole `Slots`, which
+    /// is `Send`, rather than the bare pointer, which is not.
+    #[inline(always)]
+    fn ptr(self) -> *mut f32 {
+        self.0
+    }
+}
+
 const CX: [f32; Q] = cf(0);
 const CY: [f32; Q] = cf(1);
 const CZ: [f32; Q] = cf(2);
@@ -183,7 +192,7 @@ impl Lattice {
             .par_iter_mut()
             .enumerate()
             .for_each(|(chunk, sums)| {
-                let slots = slots;
+                let base = slots.ptr();
                 let start = chunk * CHUNK;
                 let end = (start + CHUNK).min(n);
                 let mut s = Sums::default();
@@ -201,15 +210,15 @@ impl Lattice {
                     // touched by no other node in this step (AA pattern, module docs).
                     unsafe {
                         for i in 0..Q {
-                            d[i] = *slots.0.add(at[i]);
+                            d[i] = *base.add(at[i]);
                         }
                     }
                     let u = collide(&mut d, g, om_p, om_m);
                     unsafe {
-                        *slots.0.add(at[0]) = d[0];
+                        *base.add(at[0]) = d[0];
                         for i in 1..=PAIRS {
-                            *slots.0.add(at[i + PAIRS]) = d[i];
-                            *slots.0.add(at[i]) = d[i + PAIRS];
+                            *base.add(at[i + PAIRS]) = d[i];
+                            *base.add(at[i]) = d[i + PAIRS];
                         }
                     }
                     s.u[0] += u[0] as f64;
@@ -232,7 +241,7 @@ impl Lattice {
 
     /// Density and velocity of every node. Valid after an even number of steps (plain layout).
     pub fn macroscopic(&self, p: &KernelParams) -> (Vec<f32>, Vec<[f32; 3]>) {
-        debug_assert!(self.steps % 2 == 0);
+        debug_assert!(self.steps.is_multiple_of(2));
         let n = self.n;
         let g = [p.force[0] as f32, p.force[1] as f32, p.force[2] as f32];
         (0..n)

@@ -5,6 +5,7 @@ pub mod boundary;
 pub mod d3q19;
 pub mod domain;
 pub mod kernel;
+pub mod memory;
 pub mod solver;
 
 pub use boundary::{BoundaryMode, Ends, Sides};

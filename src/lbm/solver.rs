@@ -19,6 +19,15 @@ pub enum Collision {
     Bgk,
 }
 
+impl std::fmt::Display for Collision {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            Collision::Trt => "TRT",
+            Collision::Bgk => "BGK",
+        })
+    }
+}
+
 impl std::str::FromStr for Collision {
     type Err = String;
     fn from_str(s: &str) -> std::result::Result<Self, String> {
@@ -120,12 +129,10 @@ impl SolverSettings {
         if self.max_steps < 2 {
             return Err(Error::Usage("--max-steps must be at least 2".into()));
         }
-        if let Some(f) = self.force {
-            if !(f.is_finite() && f > 0.0) {
-                return Err(Error::Usage(format!(
-                    "body force {f} must be a positive number"
-                )));
-            }
+        if let Some(f) = self.force.filter(|f| !(f.is_finite() && *f > 0.0)) {
+            return Err(Error::Usage(format!(
+                "body force {f} must be a positive number"
+            )));
         }
         Ok(warnings)
     }
@@ -135,10 +142,19 @@ impl SolverSettings {
 /// g = 16 ν u* / d_h², the force that drives a peak speed u* in a tube of diameter d_h
 /// (Hagen–Poiseuille, u_max = g d²/(16ν)), with d_h = 4φ/S the hydraulic diameter from the
 /// porosity and the voxel-face surface per volume (common practice).
+///
+/// The force is lowered further if the same tube model predicts a Reynolds number
+/// Re = u_mean d_h / ν = g d_h³ / (32 ν²) above [`TARGET_REYNOLDS`], so large pores stay in
+/// creeping flow too.
 pub fn auto_force(domain: &Domain, nu: f64, target_speed: f64) -> f64 {
     let dh = hydraulic_diameter(domain);
-    16.0 * nu * target_speed / (dh * dh)
+    let by_speed = 16.0 * nu * target_speed / (dh * dh);
+    let by_reynolds = 32.0 * nu * nu * TARGET_REYNOLDS / (dh * dh * dh);
+    by_speed.min(by_reynolds)
 }
+
+/// Reynolds number the automatic force aims below (creeping flow: Re ≪ 1, common practice).
+pub const TARGET_REYNOLDS: f64 = 0.01;
 
 /// Hydraulic diameter d_h = 4 V_pore / A_wall in voxels, from voxel faces (common practice); the
 /// smallest grid extent when there are no walls at all.
@@ -260,7 +276,7 @@ pub fn solve(
     let started = Instant::now();
     while lattice.steps < max_steps {
         let sums = lattice.step(domain, &params);
-        if lattice.steps % window != 0 {
+        if !lattice.steps.is_multiple_of(window) {
             continue;
         }
         let step = lattice.steps;

@@ -12,6 +12,19 @@ fn sci(v: f64) -> String {
     }
 }
 
+/// Four significant figures, switching to scientific notation outside 0.01–99999.
+fn sig4(v: f64) -> String {
+    let a = v.abs();
+    if v == 0.0 {
+        "0".into()
+    } else if (0.01..1e5).contains(&a) {
+        let decimals = (3 - a.log10().floor() as i32).max(0) as usize;
+        format!("{v:.decimals$}")
+    } else {
+        format!("{v:.3e}")
+    }
+}
+
 /// Renders the summary text.
 pub fn render(r: &EstimateReport) -> String {
     let mut s = String::new();
@@ -24,7 +37,7 @@ pub fn render(r: &EstimateReport) -> String {
     );
     match r.voxel_size_m {
         Some(dx) => {
-            let _ = writeln!(s, "voxel size  {} m  ({})", sci(dx), inp.voxel_size_source);
+            let _ = writeln!(s, "voxel size  {} m, {}", sci(dx), inp.voxel_size_source);
         }
         None => {
             let _ = writeln!(
@@ -36,7 +49,7 @@ pub fn render(r: &EstimateReport) -> String {
     let set = &r.settings;
     let _ = writeln!(
         s,
-        "solver      D3Q19 {:?}, tau {} (tau- {:.4}), sides {}, ends {}, tolerance {:.1e}",
+        "solver      D3Q19 {}, tau {} (tau- {:.4}), sides {}, ends {}, tolerance {:.1e}",
         set.solver.collision,
         set.solver.tau,
         set.tau_minus,
@@ -72,7 +85,7 @@ pub fn render(r: &EstimateReport) -> String {
             a.axis.to_string(),
             sci(a.permeability_lattice),
             a.permeability_m2.map_or("-".into(), sci),
-            a.permeability_md.map_or("-".into(), |v| format!("{v:.4}")),
+            a.permeability_md.map_or("-".into(), sig4),
             a.connected_porosity,
             tort,
             re,
@@ -116,32 +129,33 @@ pub fn render(r: &EstimateReport) -> String {
             );
         }
     }
-    if let Some(g) = &r.geometry {
-        if let Some(kc) = g.kozeny_carman_lattice {
-            let _ = writeln!(s);
-            let phys = g
-                .kozeny_carman_md
-                .map_or(String::new(), |md| format!(" = {md:.4} mD"));
-            let _ = writeln!(
-                s,
-                "Kozeny–Carman (c_K = {}): k = {} voxel²{phys}; implied c_K from the solve: {}",
-                g.kozeny_constant_assumed,
-                sci(kc),
-                match &r.kozeny_constant_implied {
-                    serde_json::Value::Number(n) =>
-                        format!("{:.3}", n.as_f64().unwrap_or(f64::NAN)),
-                    serde_json::Value::Object(m) => m
-                        .iter()
-                        .map(|(k, v)| format!(
-                            "{k} {}",
-                            v.as_f64().map_or("-".into(), |x| format!("{x:.3}"))
-                        ))
-                        .collect::<Vec<_>>()
-                        .join(", "),
-                    _ => "-".into(),
-                }
-            );
-        }
+    if let Some((g, kc)) = r
+        .geometry
+        .as_ref()
+        .and_then(|g| g.kozeny_carman_lattice.map(|kc| (g, kc)))
+    {
+        let _ = writeln!(s);
+        let phys = g
+            .kozeny_carman_md
+            .map_or(String::new(), |md| format!(" = {} mD", sig4(md)));
+        let _ = writeln!(
+            s,
+            "Kozeny–Carman (c_K = {}): k = {} voxel²{phys}; implied c_K from the solve: {}",
+            g.kozeny_constant_assumed,
+            sci(kc),
+            match &r.kozeny_constant_implied {
+                serde_json::Value::Number(n) => format!("{:.3}", n.as_f64().unwrap_or(f64::NAN)),
+                serde_json::Value::Object(m) => m
+                    .iter()
+                    .map(|(k, v)| format!(
+                        "{k} {}",
+                        v.as_f64().map_or("-".into(), |x| format!("{x:.3}"))
+                    ))
+                    .collect::<Vec<_>>()
+                    .join(", "),
+                _ => "-".into(),
+            }
+        );
     }
     let _ = writeln!(s);
     let _ = writeln!(

@@ -16,6 +16,8 @@ mod tiff_read;
 mod units;
 mod write;
 
+pub mod sample;
+
 use std::fmt;
 use std::path::{Path, PathBuf};
 

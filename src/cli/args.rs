@@ -1,0 +1,285 @@
+//! Option groups shared by several subcommands, and their second-stage validation into library
+//! settings (every cross-option rule is checked here, before any file is read).
+
+use clap::Args;
+use std::path::{Path, PathBuf};
+use voxperm::geometry::Axis;
+use voxperm::lbm::{BoundaryMode, Collision, Ends, Sides, SolverSettings};
+use voxperm::volume::{
+    CropSpec, Endian, RawSpec, RawType, Segmentation, parse_length, parse_shape,
+};
+use voxperm::{Error, Result};
+
+/// How to read and segment the input.
+#[derive(Args, Debug, Clone)]
+pub struct InputArgs {
+    /// Voxel edge length with a unit, e.g. 2.5um, 800nm, 0.01mm (overrides the file's own).
+    #[arg(long, value_name = "LENGTH")]
+    pub voxel_size: Option<String>,
+    /// Voxel value that marks pore space (repeatable or comma-separated; default 0).
+    #[arg(long, value_name = "N", value_delimiter = ',')]
+    pub pore_label: Vec<u32>,
+    /// Grey-value threshold for unsegmented images (use with --pore).
+    #[arg(long, value_name = "T")]
+    pub threshold: Option<f64>,
+    /// Which side of --threshold is pore.
+    #[arg(long, value_name = "below|above", requires = "threshold")]
+    pub pore: Option<String>,
+    /// Analyse a sub-volume: x0:x1,y0:y1,z0:z1 (half-open voxel ranges, empty = full).
+    #[arg(long, value_name = "RANGES")]
+    pub crop: Option<String>,
+    /// Read a raw file of this shape, x fastest: NXxNYxNZ, e.g. 400x400x300.
+    #[arg(long, value_name = "NXxNYxNZ")]
+    pub raw_shape: Option<String>,
+    /// Sample type of a raw file.
+    #[arg(long, value_name = "u8|u16|f32", requires = "raw_shape")]
+    pub raw_type: Option<String>,
+    /// Byte order of a raw file.
+    #[arg(long, value_name = "little|big", requires = "raw_shape")]
+    pub raw_endian: Option<String>,
+    /// Memory the run may use, e.g. 8GiB or 500MB (default: most of the available memory).
+    #[arg(long, value_name = "SIZE")]
+    pub max_memory: Option<String>,
+}
+
+/// How to solve.
+#[derive(Args, Debug, Clone)]
+pub struct SolverArgs {
+    /// Collision operator: trt (τ-independent permeability) or bgk (for comparison).
+    #[arg(long, default_value = "trt", value_name = "trt|bgk")]
+    pub collision: String,
+    /// Relaxation time τ (TRT: τ⁺); sets the lattice viscosity (τ − ½)/3.
+    #[arg(long, default_value_t = 1.0)]
+    pub tau: f64,
+    /// TRT magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½).
+    #[arg(long, default_value_t = 3.0 / 16.0, value_name = "LAMBDA")]
+    pub magic: f64,
+    /// Steady when the mean velocity changes by less than this per step (relative).
+    #[arg(long, default_value_t = 1e-6)]
+    pub tolerance: f64,
+    /// Give up (unconverged, flagged) after this many steps.
+    #[arg(long, default_value_t = 200_000)]
+    pub max_steps: usize,
+    /// Steps between convergence checks.
+    #[arg(long, default_value_t = 100, value_name = "STEPS")]
+    pub check_every: usize,
+    /// Body force in lattice units (default: chosen from the pore size for a slow, Stokes flow).
+    #[arg(long, value_name = "G")]
+    pub force: Option<f64>,
+    /// Worker threads (default: all cores).
+    #[arg(long)]
+    pub threads: Option<usize>,
+}
+
+/// How to treat the faces of the sample.
+#[derive(Args, Debug, Clone)]
+pub struct BoundaryArgs {
+    /// Faces parallel to the flow: sealed (no-flow walls) or periodic.
+    #[arg(long, value_name = "sealed|periodic")]
+    pub sides: Option<String>,
+    /// Faces normal to the flow: mirror, periodic, or buffer:N (N free-fluid slices per end).
+    #[arg(long, value_name = "mirror|periodic|buffer:N")]
+    pub ends: Option<String>,
+    /// Shorthand for --sides periodic --ends periodic (periodic unit cells, generated structures).
+    #[arg(long, conflicts_with_all = ["sides", "ends"])]
+    pub periodic: bool,
+}
+
+/// Parses a size such as "8GiB", "500MB", "2G", "1048576".
+pub fn parse_bytes(s: &str) -> Result<u64> {
+    let t = s.trim();
+    let split = t
+        .find(|c: char| !(c.is_ascii_digit() || c == '.'))
+        .unwrap_or(t.len());
+    let (num, unit) = t.split_at(split);
+    let value: f64 = num.parse().map_err(|_| {
+        Error::Usage(format!(
+            "bad memory size '{s}' (expected e.g. 8GiB or 500MB)"
+        ))
+    })?;
+    let mult: f64 = match unit.trim().to_ascii_lowercase().as_str() {
+        "" | "b" => 1.0,
+        "k" | "kb" => 1e3,
+        "kib" => 1024.0,
+        "m" | "mb" => 1e6,
+        "mib" => 1024.0 * 1024.0,
+        "g" | "gb" => 1e9,
+        "gib" => 1024.0 * 1024.0 * 1024.0,
+        "t" | "tb" => 1e12,
+        "tib" => 1024.0f64.powi(4),
+        other => {
+            return Err(Error::Usage(format!(
+                "unknown size unit '{other}' in '{s}' (expected B, KB, MB, GB, TB, KiB, MiB, GiB, TiB)"
+            )));
+        }
+    };
+    let bytes = value * mult;
+    if !(bytes.is_finite() && bytes >= 1.0) {
+        return Err(Error::Usage(format!("memory size '{s}' must be positive")));
+    }
+    Ok(bytes as u64)
+}
+
+/// Validated input options.
+pub struct InputPlan {
+    pub raw: Option<RawSpec>,
+    pub segmentation: Segmentation,
+    pub crop: Option<CropSpec>,
+    pub voxel_size_m: Option<f64>,
+    pub max_memory: u64,
+}
+
+impl InputArgs {
+    /// Second stage: checks every option and combination before anything is read.
+    pub fn plan(&self) -> Result<InputPlan> {
+        let raw = match &self.raw_shape {
+            Some(shape) => Some(RawSpec {
+                shape: parse_shape(shape)?,
+                kind: RawType::parse(self.raw_type.as_deref().unwrap_or("u8"))?,
+                endian: Endian::parse(self.raw_endian.as_deref().unwrap_or("little"))?,
+            }),
+            None => None,
+        };
+        let segmentation =
+            match (self.threshold, &self.pore) {
+                (Some(_), _) if !self.pore_label.is_empty() => return Err(Error::Usage(
+                    "--pore-label and --threshold exclude each other: choose labels or a threshold"
+                        .into(),
+                )),
+                (Some(t), Some(side)) => Segmentation::Threshold {
+                    t,
+                    pore_below: match side.as_str() {
+                        "below" => true,
+                        "above" => false,
+                        other => {
+                            return Err(Error::Usage(format!(
+                                "--pore {other}: expected below or above"
+                            )));
+                        }
+                    },
+                },
+                (Some(_), None) => {
+                    return Err(Error::Usage(
+                        "--threshold needs --pore below|above to say which side is pore".into(),
+                    ));
+                }
+                (None, _) if self.pore_label.is_empty() => Segmentation::default(),
+                (None, _) => Segmentation::Labels(self.pore_label.clone()),
+            };
+        let crop = self.crop.as_deref().map(CropSpec::parse).transpose()?;
+        let voxel_size_m = self.voxel_size.as_deref().map(parse_length).transpose()?;
+        let max_memory = match &self.max_memory {
+            Some(s) => parse_bytes(s)?,
+            None => voxperm::volume::available_memory_bytes() / 10 * 9,
+        };
+        Ok(InputPlan {
+            raw,
+            segmentation,
+            crop,
+            voxel_size_m,
+            max_memory,
+        })
+    }
+}
+
+impl SolverArgs {
+    /// Second stage: the library's solver settings, validated.
+    pub fn settings(&self) -> Result<(SolverSettings, Vec<String>)> {
+        let s = SolverSettings {
+            collision: self.collision.parse::<Collision>().map_err(Error::Usage)?,
+            tau: self.tau,
+            magic: self.magic,
+            tolerance: self.tolerance,
+            max_steps: self.max_steps,
+            check_every: self.check_every,
+            force: self.force,
+            ..SolverSettings::default()
+        };
+        let warnings = s.validate()?;
+        if self.threads == Some(0) {
+            return Err(Error::Usage("--threads must be at least 1".into()));
+        }
+        Ok((s, warnings))
+    }
+
+    /// Number of worker threads to use.
+    pub fn thread_count(&self) -> usize {
+        self.threads
+            .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+    }
+}
+
+impl BoundaryArgs {
+    /// Second stage: the boundary mode, with `default` for what the user left out.
+    pub fn mode(&self, default: BoundaryMode) -> Result<BoundaryMode> {
+        if self.periodic {
+            return Ok(BoundaryMode::PERIODIC);
+        }
+        let sides = match &self.sides {
+            Some(s) => s
+                .parse::<Sides>()
+                .map_err(|e| Error::Usage(format!("--sides: {e}")))?,
+            None => default.sides,
+        };
+        let ends = match &self.ends {
+            Some(s) => s
+                .parse::<Ends>()
+                .map_err(|e| Error::Usage(format!("--ends: {e}")))?,
+            None => default.ends,
+        };
+        Ok(BoundaryMode { sides, ends })
+    }
+}
+
+/// Parses `--axis`: x, y, z or all.
+pub fn parse_axes(s: &str) -> Result<Vec<Axis>> {
+    if s.eq_ignore_ascii_case("all") {
+        return Ok(Axis::ALL.to_vec());
+    }
+    s.parse::<Axis>()
+        .map(|a| vec![a])
+        .map_err(|e| Error::Usage(format!("--axis: {e} or all")))
+}
+
+/// Fails now, before hours of solving, if an output could not be written later: its folder
+/// must exist and it must not be a folder itself.
+pub fn check_output_path(path: &Path, flag: &str) -> Result<()> {
+    let folder = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    if !folder.is_dir() {
+        return Err(Error::Output {
+            path: path.to_path_buf(),
+            msg: format!("{flag}: the folder {} does not exist", folder.display()),
+        });
+    }
+    if path.is_dir() {
+        return Err(Error::Output {
+            path: path.to_path_buf(),
+            msg: format!("{flag}: is a folder, expected a file name"),
+        });
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn parses_memory_sizes() {
+        assert_eq!(parse_bytes("8GiB").unwrap(), 8 * 1024 * 1024 * 1024);
+        assert_eq!(parse_bytes("500MB").unwrap(), 500_000_000);
+        assert_eq!(parse_bytes("1024").unwrap(), 1024);
+        assert!(parse_bytes("lots").is_err());
+        assert!(parse_bytes("5parsecs").is_err());
+    }
+
+    #[test]
+    fn parses_axes() {
+        assert_eq!(parse_axes("all").unwrap().len(), 3);
+        assert_eq!(parse_axes("y").unwrap(), vec![Axis::Y]);
+        assert!(parse_axes("w").is_err());
+    }
+}

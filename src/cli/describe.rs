@@ -1,0 +1,180 @@
+//! `voxperm describe`: geometry only — porosity, connectivity per axis, specific surface,
+//! Kozeny–Carman estimate and the memory a solve will need. No flow is solved.
+
+use super::args::{BoundaryArgs, InputArgs, check_output_path};
+use clap::Args;
+use serde_json::json;
+use std::fmt::Write as _;
+use std::path::PathBuf;
+use voxperm::analysis::units::{lattice_to_m2, m2_to_md};
+use voxperm::geometry::Axis;
+use voxperm::geometry::describe::summarize;
+use voxperm::lbm::memory::{load_peak_bytes, solve_peak_bytes};
+use voxperm::lbm::{BoundaryMode, Domain, Ends, Sides};
+use voxperm::volume::sample::{SampleSpec, load_sample};
+use voxperm::volume::{ReadLimits, write_atomically};
+use voxperm::{Error, Result};
+
+/// Options of `voxperm describe`.
+#[derive(Args, Debug)]
+pub struct DescribeArgs {
+    /// Segmented image: multi-page TIFF, a folder of TIFF slices, or a raw file (with --raw-shape).
+    pub sample: PathBuf,
+    #[command(flatten)]
+    pub input: InputArgs,
+    #[command(flatten)]
+    pub boundary: BoundaryArgs,
+    /// Also write the figures to this JSON file.
+    #[arg(long, value_name = "FILE")]
+    pub json: Option<PathBuf>,
+}
+
+fn gib(b: u64) -> f64 {
+    b as f64 / (1024.0 * 1024.0 * 1024.0)
+}
+
+/// Runs the command.
+pub fn run(a: DescribeArgs) -> Result<i32> {
+    let plan = a.input.plan()?;
+    let mode = a.boundary.mode(BoundaryMode::SCAN)?;
+    if let Some(p) = &a.json {
+        check_output_path(p, "--json")?;
+    }
+    let spec = SampleSpec {
+        path: a.sample.clone(),
+        raw: plan.raw,
+        segmentation: plan.segmentation.clone(),
+        crop: plan.crop.clone(),
+        voxel_size_m: plan.voxel_size_m,
+    };
+    let sample = load_sample(&spec, &ReadLimits::new(plan.max_memory))?;
+    let mask = &sample.mask;
+    if mask.is_empty() {
+        return Err(Error::bad_input(&a.sample, "the volume has no voxels"));
+    }
+    let sides_periodic = mode.sides == Sides::Periodic;
+    let ends_periodic = mode.ends == Ends::Periodic;
+    let g = summarize(mask, sides_periodic, ends_periodic)?;
+    let dx = sample.voxel_size.as_ref().map(|v| v.metres);
+    let voxels = mask.len() as u64;
+    let bytes_per_sample = match sample.sample_type.as_str() {
+        "u8" => 1,
+        "u16" => 2,
+        _ => 4,
+    };
+
+    let mut out = String::new();
+    let [nx, ny, nz] = g.shape;
+    let _ = writeln!(
+        out,
+        "sample      {}  ({nx}x{ny}x{nz} {}, {})",
+        a.sample.display(),
+        sample.sample_type,
+        spec.segmentation
+    );
+    match &sample.voxel_size {
+        Some(v) => {
+            let _ = writeln!(out, "voxel size  {}", v.describe());
+        }
+        None => {
+            let _ = writeln!(
+                out,
+                "voxel size  unknown (give --voxel-size for physical units)"
+            );
+        }
+    }
+    let _ = writeln!(out, "boundary    sides {}, ends {}", mode.sides, mode.ends);
+    let _ = writeln!(
+        out,
+        "porosity    {:.4} total ({} pore voxels)",
+        g.total_porosity, g.pore_voxels
+    );
+    let mut axes_json = Vec::new();
+    for ap in &g.axes {
+        let axis = ap.axis;
+        let grid = Domain::grid_shape(g.shape, axis, mode);
+        let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
+        let fluid = fluid_nodes(ap.connected_pore_voxels as u64, g.shape, axis, mode);
+        let need = solve_peak_bytes(voxels, grid_voxels, fluid)
+            .max(load_peak_bytes(voxels, bytes_per_sample));
+        let _ = writeln!(
+            out,
+            "axis {axis}      {}  connected porosity {:.4}  solve memory {:.3} GiB ({} fluid nodes on {}x{}x{})",
+            if ap.percolates {
+                "percolates        "
+            } else {
+                "no percolating path"
+            },
+            ap.connected_porosity,
+            gib(need),
+            fluid,
+            grid[0],
+            grid[1],
+            grid[2]
+        );
+        axes_json.push(json!({
+            "axis": axis,
+            "percolates": ap.percolates,
+            "connected_porosity": ap.connected_porosity,
+            "solve_memory_bytes": need,
+            "fluid_nodes": fluid,
+            "grid_shape": grid,
+        }));
+    }
+    let s = &g.surface;
+    let _ = writeln!(
+        out,
+        "surface     {:.4e} per voxel corrected, {:.4e} raw voxel faces ({})",
+        s.specific_surface, s.face_area_per_bulk, s.estimator
+    );
+    if let Some(dx) = dx {
+        let _ = writeln!(out, "            {:.4e} per m", s.specific_surface / dx);
+    }
+    match g.kc_estimate_voxel2 {
+        Some(kc) => {
+            let phys = dx.map_or(String::new(), |dx| {
+                let m2 = lattice_to_m2(kc, dx);
+                format!(" = {m2:.4e} m² = {:.4} mD", m2_to_md(m2))
+            });
+            let _ = writeln!(
+                out,
+                "Kozeny–Carman k = φ³/(c_K S²), c_K = {}: {kc:.4e} voxel²{phys}",
+                g.kozeny_constant
+            );
+        }
+        None => {
+            let _ = writeln!(out, "Kozeny–Carman: no pore–solid surface, no estimate");
+        }
+    }
+    if let Some(p) = &a.json {
+        let doc = json!({
+            "version": voxperm::VERSION,
+            "input": a.sample.display().to_string(),
+            "voxel_size_m": dx,
+            "boundary": mode,
+            "geometry": g,
+            "axes": axes_json,
+            "kozeny_carman_m2": g.kc_estimate_voxel2.zip(dx).map(|(k, dx)| lattice_to_m2(k, dx)),
+        });
+        write_atomically(p, |w| {
+            use std::io::Write;
+            let text =
+                serde_json::to_string_pretty(&doc).map_err(|e| Error::Internal(e.to_string()))?;
+            w.write_all(text.as_bytes())
+                .map_err(|e| voxperm::volume::output_error(p, e))
+        })?;
+    }
+    print!("{out}");
+    Ok(voxperm::error::exit::OK)
+}
+
+/// Fluid nodes of the solver grid: connected pores, doubled by a mirror, plus free buffer slices.
+fn fluid_nodes(connected: u64, shape: [usize; 3], axis: Axis, mode: BoundaryMode) -> u64 {
+    let a = axis.index();
+    let face = (shape[(a + 1) % 3] * shape[(a + 2) % 3]) as u64;
+    match mode.ends {
+        Ends::Periodic => connected,
+        Ends::Mirror => 2 * connected,
+        Ends::Buffer(n) => connected + 2 * n as u64 * face,
+    }
+}

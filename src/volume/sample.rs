@@ -1,0 +1,89 @@
+//! A sample as the commands see it: where it is, how to read and segment it, and the resulting
+//! pore mask with its voxel size and a content hash.
+
+use super::{
+    CropSpec, RawSpec, ReadLimits, Segmentation, VoxelSize, crop, load, segment, slice_files,
+};
+use crate::geometry::PoreMask;
+use crate::{Error, Result};
+use sha2::{Digest, Sha256};
+use std::io::Read;
+use std::path::{Path, PathBuf};
+
+/// How to read one sample.
+#[derive(Debug, Clone)]
+pub struct SampleSpec {
+    pub path: PathBuf,
+    /// Raw layout; `None` reads a TIFF stack or a slice folder.
+    pub raw: Option<RawSpec>,
+    pub segmentation: Segmentation,
+    pub crop: Option<CropSpec>,
+    /// Voxel edge given by the user, metres; overrides what the file says.
+    pub voxel_size_m: Option<f64>,
+}
+
+/// A loaded, segmented sample.
+#[derive(Debug, Clone)]
+pub struct Sample {
+    pub mask: PoreMask,
+    pub voxel_size: Option<VoxelSize>,
+    /// Shape of the file before cropping.
+    pub file_shape: [usize; 3],
+    /// Sample type of the voxels ("u8", "u16", "f32").
+    pub sample_type: String,
+}
+
+/// Reads, crops and segments a sample. The voxel values are dropped once the mask exists.
+pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
+    let mut vol = load(&spec.path, spec.raw.as_ref(), limits)?;
+    let file_shape = vol.shape;
+    if let Some(c) = &spec.crop {
+        let c = c.resolve(vol.shape)?;
+        vol = crop(&vol, &c);
+    }
+    if let Some(m) = spec.voxel_size_m {
+        vol.set_user_voxel_size(m)?;
+    }
+    let mask = segment(&vol, &spec.segmentation).map_err(|e| match e {
+        Error::Usage(msg) | Error::BadVolume(msg) => Error::bad_input(&spec.path, msg),
+        other => other,
+    })?;
+    Ok(Sample {
+        mask,
+        voxel_size: vol.voxel_size.clone(),
+        file_shape,
+        sample_type: vol.data.kind().to_string(),
+    })
+}
+
+/// SHA-256 of the input: the file's bytes, or for a slice folder the sorted slice names and
+/// their bytes. Used to recognise unchanged inputs (batch resume) and recorded in results.
+pub fn input_sha256(path: &Path) -> Result<String> {
+    let mut h = Sha256::new();
+    let files = if path.is_dir() {
+        slice_files(path)?
+    } else {
+        vec![path.to_path_buf()]
+    };
+    let mut buf = vec![0u8; 1 << 20];
+    for f in &files {
+        if path.is_dir() {
+            h.update(
+                f.file_name()
+                    .map(|n| n.to_string_lossy().into_owned())
+                    .unwrap_or_default(),
+            );
+        }
+        let mut file = std::fs::File::open(f).map_err(|e| Error::bad_input(f, e.to_string()))?;
+        loop {
+            let n = file
+                .read(&mut buf)
+                .map_err(|e| Error::bad_input(f, e.to_string()))?;
+            if n == 0 {
+                break;
+            }
+            h.update(&buf[..n]);
+        }
+    }
+    Ok(hex::encode(h.finalize()))
+}
