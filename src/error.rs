@@ -34,7 +34,7 @@ pub enum Error {
     #[error("{0}")]
     BadVolume(String),
     /// The input claims a size that would not fit in the allowed memory.
-    #[error("{what} needs {needed_bytes} bytes ({:.2} GiB) but the limit is {:.2} GiB; raise it with --max-memory or crop the volume", *needed_bytes as f64 / GIB, *limit_bytes as f64 / GIB)]
+    #[error("{what} needs {} but the limit is {}; raise it with --max-memory or crop the volume", human_bytes(*needed_bytes), human_bytes(*limit_bytes))]
     TooLarge {
         what: String,
         needed_bytes: u64,
@@ -56,7 +56,21 @@ pub enum Error {
     Internal(String),
 }
 
-const GIB: f64 = 1024.0 * 1024.0 * 1024.0;
+/// A byte count for messages: "512 B", "3.4 MiB", "12.00 GiB".
+pub fn human_bytes(b: u64) -> String {
+    const UNITS: [&str; 5] = ["B", "KiB", "MiB", "GiB", "TiB"];
+    let mut v = b as f64;
+    let mut u = 0;
+    while v >= 1024.0 && u + 1 < UNITS.len() {
+        v /= 1024.0;
+        u += 1;
+    }
+    if u == 0 {
+        format!("{b} B")
+    } else {
+        format!("{v:.2} {}", UNITS[u])
+    }
+}
 
 impl Error {
     /// The process exit code for this error.
@@ -83,3 +97,35 @@ impl Error {
 
 /// Result type of the voxperm library.
 pub type Result<T> = std::result::Result<T, Error>;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn byte_counts_read_well() {
+        assert_eq!(human_bytes(512), "512 B");
+        assert_eq!(human_bytes(3 * 1024 * 1024 + 512 * 1024), "3.50 MiB");
+        assert_eq!(human_bytes(12 << 30), "12.00 GiB");
+    }
+
+    #[test]
+    fn exit_codes_follow_the_design() {
+        assert_eq!(Error::Usage("x".into()).exit_code(), exit::USAGE);
+        assert_eq!(Error::bad_input("a", "b").exit_code(), exit::BAD_INPUT);
+        assert_eq!(
+            Error::NoPercolatingPath { axis: 'x' }.exit_code(),
+            exit::SOLVER
+        );
+        let e = Error::TooLarge {
+            what: "a.tif".into(),
+            needed_bytes: 2 << 30,
+            limit_bytes: 1 << 30,
+        };
+        assert_eq!(e.exit_code(), exit::BAD_INPUT);
+        assert_eq!(
+            e.to_string(),
+            "a.tif needs 2.00 GiB but the limit is 1.00 GiB; raise it with --max-memory or crop the volume"
+        );
+    }
+}

@@ -167,7 +167,12 @@ impl InputArgs {
                 (None, _) => Segmentation::Labels(self.pore_label.clone()),
             };
         let crop = self.crop.as_deref().map(CropSpec::parse).transpose()?;
-        let voxel_size_m = self.voxel_size.as_deref().map(parse_length).transpose()?;
+        let voxel_size_m = self
+            .voxel_size
+            .as_deref()
+            .map(parse_length)
+            .transpose()
+            .map_err(|e| Error::Usage(format!("--voxel-size {e}")))?;
         let max_memory = match &self.max_memory {
             Some(s) => parse_bytes(s)?,
             None => voxperm::volume::available_memory_bytes() / 10 * 9,

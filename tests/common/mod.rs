@@ -56,3 +56,50 @@ pub fn sphere_cell(l: usize, r: f64) -> PoreMask {
 pub fn rel(got: f64, want: f64) -> f64 {
     (got - want).abs() / want.abs()
 }
+
+/// A minimal little-endian TIFF of `pages` IFDs, each claiming a `width` x `height` page of
+/// `bits`-bit samples whose single strip lies beyond the end of the file. Layout from TIFF 6.0,
+/// sections 2 (header, IFD entries of 12 bytes) and 4 (grey-scale tags) [from memory; the
+/// within-limit case below checks the tiff crate accepts it as a TIFF].
+pub fn hostile_header(
+    width: u32,
+    height: u32,
+    bits: u16,
+    sample_format: u16,
+    pages: u32,
+) -> Vec<u8> {
+    const SHORT: u16 = 3;
+    const LONG: u16 = 4;
+    let entries: [(u16, u16, u32); 10] = [
+        (256, LONG, width),                     // ImageWidth
+        (257, LONG, height),                    // ImageLength
+        (258, SHORT, u32::from(bits)),          // BitsPerSample
+        (259, SHORT, 1),                        // Compression: none
+        (262, SHORT, 1),                        // PhotometricInterpretation: BlackIsZero
+        (273, LONG, 1 << 20),                   // StripOffsets: past the end of the file
+        (277, SHORT, 1),                        // SamplesPerPixel
+        (278, LONG, height),                    // RowsPerStrip: one strip
+        (279, LONG, u32::MAX),                  // StripByteCounts
+        (339, SHORT, u32::from(sample_format)), // SampleFormat
+    ];
+    let ifd_len = 2 + 12 * entries.len() as u32 + 4;
+    let mut b = Vec::new();
+    b.extend_from_slice(b"II");
+    b.extend_from_slice(&42u16.to_le_bytes());
+    b.extend_from_slice(&8u32.to_le_bytes());
+    for p in 0..pages {
+        let start = 8 + p * ifd_len;
+        b.extend_from_slice(&(entries.len() as u16).to_le_bytes());
+        for (tag, ty, value) in entries {
+            b.extend_from_slice(&tag.to_le_bytes());
+            b.extend_from_slice(&ty.to_le_bytes());
+            b.extend_from_slice(&1u32.to_le_bytes());
+            // A SHORT sits in the first two bytes of the value field; as little-endian u32
+            // that is the same four bytes.
+            b.extend_from_slice(&value.to_le_bytes());
+        }
+        let next = if p + 1 < pages { start + ifd_len } else { 0 };
+        b.extend_from_slice(&next.to_le_bytes());
+    }
+    b
+}

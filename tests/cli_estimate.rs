@@ -1,0 +1,321 @@
+//! `voxperm estimate` and `voxperm describe` end to end: the real binary on volumes generated in
+//! a temporary folder. Every failure case checks the exit code, a one-line message naming the
+//! problem, and that no output file was left behind.
+mod common;
+use assert_cmd::Command;
+use common::{hostile_header, slit, sphere_cell};
+use std::path::{Path, PathBuf};
+use voxperm::geometry::{Axis, PoreMask};
+use voxperm::volume::{TiffCompression, Volume, write_tiff_stack};
+
+fn voxperm() -> Command {
+    Command::cargo_bin("voxperm").expect("binary")
+}
+
+fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
+    let p = dir.join(name);
+    write_tiff_stack(
+        &p,
+        &Volume::from_mask(mask, 0, 255),
+        TiffCompression::Lzw,
+        None,
+    )
+    .expect("write");
+    p
+}
+
+/// Runs voxperm and returns (exit code, stdout, stderr), printing all on failure.
+fn run(args: &[&str]) -> (i32, String, String) {
+    let out = voxperm().args(args).output().expect("run");
+    let code = out.status.code().unwrap_or(-1);
+    (
+        code,
+        String::from_utf8_lossy(&out.stdout).into(),
+        String::from_utf8_lossy(&out.stderr).into(),
+    )
+}
+
+/// Asserts a failure: exit code, one line on stderr containing every `needle`, no JSON left.
+fn assert_fails(args: &[&str], code: i32, needles: &[&str], json: &Path) {
+    let (got, stdout, stderr) = run(args);
+    assert_eq!(
+        got, code,
+        "args {args:?}\nstdout: {stdout}\nstderr: {stderr}"
+    );
+    let lines: Vec<&str> = stderr.lines().filter(|l| !l.trim().is_empty()).collect();
+    assert_eq!(lines.len(), 1, "expected one error line, got: {stderr}");
+    for n in needles {
+        assert!(lines[0].contains(n), "'{}' lacks '{n}'", lines[0]);
+    }
+    assert!(!json.exists(), "a failed run left {}", json.display());
+}
+
+#[test]
+fn estimate_writes_the_documented_json() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(16, 6.0));
+    let json = dir.path().join("out.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--voxel-size",
+        "2.5um",
+        "--axis",
+        "x",
+        "--periodic",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(
+        stdout.contains("permeability") && stdout.contains("mD"),
+        "{stdout}"
+    );
+    assert!(stdout.contains("caution"), "{stdout}");
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    for key in [
+        "permeability_m2",
+        "permeability_mD",
+        "permeability_lattice",
+        "porosity",
+        "tortuosity",
+        "axis",
+        "steps",
+        "converged",
+        "mlups",
+        "voxel_size_m",
+        "settings",
+        "version",
+    ] {
+        assert!(v.get(key).is_some(), "JSON lacks {key}");
+    }
+    let k_lat = v["permeability_lattice"].as_f64().unwrap();
+    let k_m2 = v["permeability_m2"].as_f64().unwrap();
+    let k_md = v["permeability_mD"].as_f64().unwrap();
+    // Unit chain: m² = voxel² × (2.5e-6 m)²; 1 mD = 9.869233e-16 m² (NIST SP 811 App. B, from memory).
+    assert!((k_m2 / (k_lat * 6.25e-12) - 1.0).abs() < 1e-12);
+    assert!((k_md / (k_m2 / 9.869233e-16) - 1.0).abs() < 1e-6);
+    assert_eq!(v["axis"], "x");
+    assert_eq!(v["converged"], true);
+    assert_eq!(v["voxel_size_m"].as_f64().unwrap(), 2.5e-6);
+    assert_eq!(v["settings"]["solver"]["collision"], "trt");
+    assert_eq!(v["settings"]["ends"], "periodic");
+    assert!(v["tortuosity"].as_f64().unwrap() > 1.0);
+    let phi = v["porosity"].as_f64().unwrap();
+    assert!((phi - sphere_cell(16, 6.0).porosity()).abs() < 1e-12);
+}
+
+#[test]
+fn axis_all_gives_the_tensor_and_names_the_blocked_axis() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "slit.tif", &slit(Axis::Z, 4, 3));
+    let json = dir.path().join("t.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--voxel-size",
+        "1um",
+        "--axis",
+        "all",
+        "--periodic",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(
+        stdout.contains("no percolating pore path along z"),
+        "{stdout}"
+    );
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let t = v["permeability_tensor_m2"].as_array().expect("tensor");
+    assert_eq!(t.len(), 3);
+    // Slit of 4 fluid layers in a period of 5 (REFERENCES.md, plane Poiseuille): k = (16/12 + 1/24)·4/5 voxel².
+    let want = (16.0 / 12.0 + 1.0 / 24.0) * 0.8 * 1e-12;
+    let kxx = t[0][0].as_f64().unwrap();
+    assert!((kxx / want - 1.0).abs() < 5e-3, "k_xx {kxx} vs {want}");
+    assert_eq!(t[2][2].as_f64().unwrap(), 0.0);
+    assert_eq!(v["axis"], "all");
+    assert!(v["permeability_mD"]["x"].as_f64().unwrap() > 0.0);
+}
+
+#[test]
+fn bad_inputs_fail_with_one_clear_line_and_no_output() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let json = d.join("never.json");
+    let j = json.to_str().unwrap();
+    let good = write_mask(d, "good.tif", &sphere_cell(8, 3.0));
+    let g = good.to_str().unwrap();
+
+    // Missing file (exit 3, DESIGN.md exit codes).
+    assert_fails(
+        &["estimate", "/nonexistent/x.tif", "--json", j],
+        3,
+        &["/nonexistent/x.tif", "no such file"],
+        &json,
+    );
+    // Not a TIFF.
+    let text = d.join("notes.tif");
+    std::fs::write(&text, "these are not voxels\n").unwrap();
+    assert_fails(
+        &["estimate", text.to_str().unwrap(), "--json", j],
+        3,
+        &["notes.tif", "TIFF"],
+        &json,
+    );
+    // Truncated TIFF.
+    let bytes = std::fs::read(&good).unwrap();
+    let cut = d.join("cut.tif");
+    std::fs::write(&cut, &bytes[..bytes.len() / 2]).unwrap();
+    assert_fails(
+        &["estimate", cut.to_str().unwrap(), "--json", j],
+        3,
+        &["cut.tif"],
+        &json,
+    );
+    // A header claiming far more voxels than memory allows: refused before allocating.
+    let huge = d.join("huge.tif");
+    std::fs::write(&huge, hostile_header(100_000, 100_000, 8, 1, 3)).unwrap();
+    assert_fails(
+        &[
+            "estimate",
+            huge.to_str().unwrap(),
+            "--max-memory",
+            "1GiB",
+            "--json",
+            j,
+        ],
+        3,
+        &["huge.tif", "GiB"],
+        &json,
+    );
+    // No pore voxels: label 0 does not occur when everything is solid (255).
+    let solid = write_mask(
+        d,
+        "solid.tif",
+        &PoreMask::from_fn([6, 6, 6], |_, _, _| false),
+    );
+    assert_fails(
+        &["estimate", solid.to_str().unwrap(), "--json", j],
+        3,
+        &["solid.tif", "label"],
+        &json,
+    );
+    // All pore.
+    let open = write_mask(d, "open.tif", &PoreMask::from_fn([6, 6, 6], |_, _, _| true));
+    assert_fails(
+        &["estimate", open.to_str().unwrap(), "--json", j],
+        3,
+        &["open.tif", "every voxel is pore"],
+        &json,
+    );
+    // Unknown label.
+    assert_fails(
+        &["estimate", g, "--pore-label", "7", "--json", j],
+        3,
+        &["good.tif", "7"],
+        &json,
+    );
+    // A unit that is not a length (usage error, exit 2).
+    assert_fails(
+        &["estimate", g, "--voxel-size", "5kg", "--json", j],
+        2,
+        &["kg"],
+        &json,
+    );
+    // Output in a missing folder: fails before the solve.
+    let missing = d.join("no_such_folder").join("out.json");
+    assert_fails(
+        &[
+            "estimate",
+            g,
+            "--periodic",
+            "--json",
+            missing.to_str().unwrap(),
+        ],
+        3,
+        &["no_such_folder"],
+        &missing,
+    );
+    // No percolating path along the requested axis (exit 4, names the axis).
+    let layers = write_mask(d, "layers.tif", &slit(Axis::Z, 3, 4));
+    assert_fails(
+        &[
+            "estimate",
+            layers.to_str().unwrap(),
+            "--axis",
+            "z",
+            "--periodic",
+            "--json",
+            j,
+        ],
+        4,
+        &["along z"],
+        &json,
+    );
+    // Raw size not matching the shape.
+    let raw = d.join("vol.raw");
+    std::fs::write(&raw, vec![0u8; 100]).unwrap();
+    assert_fails(
+        &[
+            "estimate",
+            raw.to_str().unwrap(),
+            "--raw-shape",
+            "5x5x5",
+            "--json",
+            j,
+        ],
+        3,
+        &["vol.raw", "125"],
+        &json,
+    );
+    // Slices of different sizes in a folder.
+    let slices = d.join("slices");
+    std::fs::create_dir(&slices).unwrap();
+    write_mask(
+        &slices,
+        "s1.tif",
+        &PoreMask::from_fn([6, 6, 1], |x, _, _| x > 2),
+    );
+    write_mask(
+        &slices,
+        "s2.tif",
+        &PoreMask::from_fn([7, 6, 1], |x, _, _| x > 2),
+    );
+    assert_fails(
+        &["estimate", slices.to_str().unwrap(), "--json", j],
+        3,
+        &["s2.tif"],
+        &json,
+    );
+    // τ at or below ½: usage error.
+    assert_fails(
+        &["estimate", g, "--tau", "0.5", "--json", j],
+        2,
+        &["--tau"],
+        &json,
+    );
+}
+
+#[test]
+fn describe_reports_geometry_without_solving() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "layers.tif", &slit(Axis::Z, 3, 4));
+    let (code, stdout, stderr) = run(&[
+        "describe",
+        sample.to_str().unwrap(),
+        "--voxel-size",
+        "3um",
+        "--periodic",
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(
+        stdout.contains("axis x") && stdout.contains("percolates"),
+        "{stdout}"
+    );
+    assert!(stdout.contains("no percolating path"), "{stdout}");
+    assert!(stdout.contains("Kozeny"), "{stdout}");
+    assert!(stdout.contains("GiB"), "{stdout}");
+}
