@@ -2,6 +2,7 @@
 //! connectivity, surface area and synthetic structure generators.
 
 mod mask;
+pub mod synth;
 
 pub use mask::PoreMask;
 
