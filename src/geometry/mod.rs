@@ -5,6 +5,7 @@ pub mod connectivity;
 pub mod describe;
 mod mask;
 pub mod surface;
+pub mod synth;
 
 pub use mask::PoreMask;
 
