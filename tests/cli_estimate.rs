@@ -319,3 +319,57 @@ fn describe_reports_geometry_without_solving() {
     assert!(stdout.contains("Kozeny"), "{stdout}");
     assert!(stdout.contains("GiB"), "{stdout}");
 }
+
+#[test]
+fn vtk_output_has_the_sample_shape_and_fields() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    let vti = dir.path().join("flow.vti");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--voxel-size",
+        "4um",
+        "--vtk",
+        vti.to_str().unwrap(),
+        "--vtk-stride",
+        "2",
+        "--quiet",
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(stdout.is_empty(), "--quiet printed: {stdout}");
+    let text = std::fs::read_to_string(&vti).unwrap();
+    // Default scan mode (sealed sides, mirrored ends): the file shows the 10³ sample, not the
+    // doubled solver grid; stride 2 → 5³ cells of 8 µm.
+    assert!(
+        text.contains("WholeExtent=\"0 5 0 5 0 5\""),
+        "{}",
+        &text[..400.min(text.len())]
+    );
+    for name in ["velocity", "speed", "pressure", "pore"] {
+        assert!(
+            text.contains(&format!("Name=\"{name}\"")),
+            "no {name} array"
+        );
+    }
+    let vtk = vtkio::Vtk::import(&vti).expect("vtkio reads it back");
+    match vtk.data {
+        vtkio::model::DataSet::ImageData { spacing, .. } => {
+            assert!((spacing[0] as f64 - 8e-6).abs() < 1e-12, "{spacing:?}")
+        }
+        other => panic!("not image data: {other:?}"),
+    }
+    // Bad VTK options fail before the solve.
+    let (code, _, stderr) = run(&["estimate", sample.to_str().unwrap(), "--vtk", "flow.vtk"]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains(".vti"), "{stderr}");
+    let (code, _, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--vtk",
+        vti.to_str().unwrap(),
+        "--vtk-stride",
+        "0",
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+}

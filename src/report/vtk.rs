@@ -34,9 +34,8 @@
 //! cell, so the writer checks [`memory_estimate`] against a cap before building anything and
 //! names the stride that would fit.
 
-use std::fs::File;
-use std::io::{self, BufWriter, Write};
-use std::path::{Path, PathBuf};
+use std::io::{self, Write};
+use std::path::Path;
 
 use vtkio::model::{
     Attribute, Attributes, ByteOrder, DataSet, Extent, ImageDataPiece, Piece, Version, Vtk,
@@ -145,7 +144,7 @@ pub fn write_vti_with_limit(
     let field_data = field_data_xml(kept, &scale, voxel_size_m, stride);
     let vtk = image_vtk(shape, spacing, arrays);
 
-    write_via_temp(path, |w| {
+    crate::volume::write_atomically(path, |w| {
         let mut out = InsertAfterImageDataTag::new(&mut *w, field_data.into_bytes());
         vtk.write_xml(&mut out).map_err(|e| Error::Output {
             path: path.to_path_buf(),
@@ -368,29 +367,6 @@ fn check_destination(path: &Path) -> Result<()> {
         )));
     }
     Ok(())
-}
-
-/// Writes through `<path>.tmp` and renames, so no half file is left under the real name.
-// TODO(merge): replace with `crate::volume::write_atomically`, which has this same contract.
-fn write_via_temp(path: &Path, f: impl FnOnce(&mut BufWriter<File>) -> Result<()>) -> Result<()> {
-    let tmp: PathBuf = path.with_extension("vti.tmp");
-    let io_err = |p: &Path, e: io::Error| Error::Output {
-        path: p.to_path_buf(),
-        msg: e.to_string(),
-    };
-    let file = File::create(&tmp).map_err(|e| io_err(&tmp, e))?;
-    let mut w = BufWriter::new(file);
-    let written = f(&mut w).and_then(|()| {
-        let file = w.into_inner().map_err(|e| io_err(&tmp, e.into_error()))?;
-        file.sync_all().map_err(|e| io_err(&tmp, e))
-    });
-    match written.and_then(|()| std::fs::rename(&tmp, path).map_err(|e| io_err(path, e))) {
-        Ok(()) => Ok(()),
-        Err(e) => {
-            let _ = std::fs::remove_file(&tmp);
-            Err(e)
-        }
-    }
 }
 
 /// Passes bytes through and inserts `payload` right after the first `<ImageData …>` start tag,
