@@ -373,3 +373,54 @@ fn vtk_output_has_the_sample_shape_and_fields() {
     ]);
     assert_eq!(code, 2, "{stderr}");
 }
+
+/// A grey 16-bit image segmented by threshold and cropped: the JSON records what was analysed.
+#[test]
+fn threshold_and_crop_on_a_grey_image() {
+    use voxperm::volume::VoxelData;
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("grey.tif");
+    // 12x12x12, pore (value 1000) in a slit y < 4, solid 40000 elsewhere.
+    let shape = [12usize, 12, 12];
+    let data: Vec<u16> = (0..12 * 12 * 12)
+        .map(|i| if (i / 12) % 12 < 4 { 1000 } else { 40000 })
+        .collect();
+    let vol = Volume::new(shape, VoxelData::U16(data)).unwrap();
+    write_tiff_stack(&p, &vol, TiffCompression::Deflate, Some(1e-6)).unwrap();
+    let json = dir.path().join("g.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        p.to_str().unwrap(),
+        "--threshold",
+        "20000",
+        "--pore",
+        "below",
+        "--crop",
+        ":,0:6,2:10",
+        "--periodic",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    assert_eq!(v["input"]["shape"], serde_json::json!([12, 6, 8]));
+    assert_eq!(v["input"]["file_shape"], serde_json::json!([12, 12, 12]));
+    assert_eq!(v["input"]["sample_type"], "u16");
+    // The voxel size came from the file's tags, and the result says so.
+    assert_eq!(v["voxel_size_m"].as_f64().unwrap(), 1e-6);
+    assert!(
+        v["input"]["voxel_size_source"]
+            .as_str()
+            .unwrap()
+            .contains("grey.tif")
+    );
+    assert!((v["porosity"].as_f64().unwrap() - 4.0 / 6.0).abs() < 1e-12);
+    // Slit of 4 fluid layers in a period of 6 (plane Poiseuille, REFERENCES.md).
+    let want = (16.0 / 12.0 + 1.0 / 24.0) * 4.0 / 6.0;
+    let k = v["permeability_lattice"].as_f64().unwrap();
+    assert!((k / want - 1.0).abs() < 5e-3, "k {k} vs {want}");
+    // --threshold without --pore is refused before reading.
+    let (code, _, stderr) = run(&["estimate", p.to_str().unwrap(), "--threshold", "5"]);
+    assert_eq!(code, 2, "{stderr}");
+}
