@@ -2,9 +2,13 @@
 //! mapping from library errors to one-line messages and exit codes. No physics lives here.
 
 mod args;
+mod batch;
+mod batch_plan;
+mod batch_progress;
 mod describe;
 mod estimate;
 mod progress;
+mod report;
 
 use clap::{Parser, Subcommand};
 use voxperm::error::exit;
@@ -23,6 +27,10 @@ enum Command {
     Estimate(estimate::EstimateArgs),
     /// Geometry only: porosity, connectivity, surface, Kozeny–Carman, memory a solve needs.
     Describe(describe::DescribeArgs),
+    /// Many samples from a manifest or a folder: one result file each, a summary table, resumable.
+    Batch(batch::BatchArgs),
+    /// Comparison report (HTML and/or Markdown with SVG plots) over result files.
+    Report(report::ReportArgs),
 }
 
 /// Runs the command line and returns the process exit code.
@@ -42,6 +50,8 @@ pub fn main() -> i32 {
     let result = match cli.command {
         Command::Estimate(a) => estimate::run(a),
         Command::Describe(a) => describe::run(a),
+        Command::Batch(a) => batch::run(a),
+        Command::Report(a) => report::run(a),
     };
     match result {
         Ok(code) => code,

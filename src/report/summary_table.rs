@@ -139,8 +139,9 @@ impl SummaryRow {
         }
     }
 
-    /// Permeabilities of the solved axes: mD when the voxel size is known, else voxel².
-    fn permeabilities(&self) -> (Vec<(char, f64)>, &'static str) {
+    /// "k x 1.2345e3 mD, y …" for a finished sample: mD when the voxel size is known, else
+    /// voxel²; flags an unconverged solve.
+    pub fn headline(&self) -> String {
         let md = [
             self.permeability_x_md,
             self.permeability_y_md,
@@ -156,12 +157,17 @@ impl SummaryRow {
         } else {
             (lat, "voxel²")
         };
-        let list = ['x', 'y', 'z']
+        let ks: Vec<String> = ['x', 'y', 'z']
             .into_iter()
             .zip(vals)
-            .filter_map(|(a, v)| v.map(|v| (a, v)))
+            .filter_map(|(a, v)| v.map(|v| format!("{a} {v:.4e}")))
             .collect();
-        (list, unit)
+        let conv = if self.converged == Some(false) {
+            ", NOT converged"
+        } else {
+            ""
+        };
+        format!("k {} {unit}{conv}", ks.join(", "))
     }
 }
 
@@ -209,16 +215,7 @@ pub fn render_text(rows: &[SummaryRow]) -> String {
     let _ = writeln!(s, "{:<width$}  status   porosity  permeability", "sample");
     for r in rows {
         let detail = match r.status.as_str() {
-            OK => {
-                let (ks, unit) = r.permeabilities();
-                let ks: Vec<String> = ks.iter().map(|(a, k)| format!("{a} {k:.4e}")).collect();
-                let conv = if r.converged == Some(false) {
-                    "  (NOT converged)"
-                } else {
-                    ""
-                };
-                format!("{} {unit}{conv}", ks.join(", "))
-            }
+            OK => r.headline(),
             _ => r.error.clone(),
         };
         let phi = r.porosity_total.map_or("-".into(), |p| format!("{p:.4}"));
