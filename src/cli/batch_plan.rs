@@ -227,9 +227,16 @@ pub fn from_manifest(
         let who = |e: &dyn std::fmt::Display, label: &str| {
             bad(format!("sample {} ({label}): {e}", n + 1))
         };
+        // The name for messages comes from the raw table: a bad key fails the typed parse.
+        let label = v
+            .get("name")
+            .or_else(|| v.get("path"))
+            .and_then(toml::Value::as_str)
+            .unwrap_or("unnamed")
+            .to_string();
         let entry: Entry = v
             .try_into()
-            .map_err(|e: toml::de::Error| who(&e.message(), "[[sample]]"))?;
+            .map_err(|e: toml::de::Error| who(&e.message(), &label))?;
         let Some(path) = &entry.path else {
             return Err(who(&"no path", entry.name.as_deref().unwrap_or("unnamed")));
         };

@@ -28,6 +28,12 @@ enum Command {
     /// Geometry only: porosity, connectivity, surface, Kozeny–Carman, memory a solve needs.
     Describe(describe::DescribeArgs),
     /// Many samples from a manifest or a folder: one result file each, a summary table, resumable.
+    ///
+    /// Samples run one after another, each solve on all cores: a lattice-Boltzmann solve is
+    /// limited by memory bandwidth, which one solve already uses up, so side-by-side solves would
+    /// not finish sooner and would need more memory. A rerun into the same --out folder skips
+    /// samples whose input file and settings are unchanged. Exit code 5 when some samples failed.
+    /// The manifest format is described in docs/batch-manifest.md.
     Batch(batch::BatchArgs),
     /// Comparison report (HTML and/or Markdown with SVG plots) over result files.
     Report(report::ReportArgs),
