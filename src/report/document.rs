@@ -8,7 +8,6 @@ use super::result::ResultView;
 use crate::analysis::kozeny::kozeny_carman_spheres;
 use crate::analysis::units::m2_to_md;
 use crate::geometry::Axis;
-use crate::volume::format_length;
 use crate::{Error, Result};
 use std::collections::BTreeMap;
 
@@ -29,6 +28,8 @@ pub struct Plot {
 pub struct Table {
     pub headers: Vec<String>,
     pub rows: Vec<Vec<Vec<String>>>,
+    /// Whether the columns after the first hold numbers (aligned right).
+    pub numeric: bool,
 }
 
 /// Per-sample material: flow plots and the run's warnings.
@@ -149,6 +150,7 @@ fn comparison_table(entries: &[Entry]) -> Table {
     Table {
         headers: headers.map(String::from).to_vec(),
         rows,
+        numeric: true,
     }
 }
 
@@ -226,10 +228,10 @@ fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
                     Some((phi, k))
                 })
                 .collect();
-            let size = if physical {
-                format_length(dd)
-            } else {
-                format!("{} voxels", num(dd))
+            let size = match physical {
+                true if dd < 1e-3 => format!("{} µm", num(dd * 1e6)),
+                true => format!("{} mm", num(dd * 1e3)),
+                false => format!("{} voxels", num(dd)),
             };
             pp.curves
                 .push((format!("Carman sphere pack, d = {size}"), curve));
@@ -331,6 +333,7 @@ fn inputs_table(entries: &[Entry]) -> Table {
     Table {
         headers: headers.map(String::from).to_vec(),
         rows,
+        numeric: false,
     }
 }
 
@@ -375,8 +378,7 @@ fn methods(entries: &[Entry]) -> Vec<String> {
             )
         };
         out.push(format!(
-            "{} ({}){used_steps}{used_force}",
-            text,
+            "{}: {text}{used_steps}{used_force}",
             names.join(", ")
         ));
     }

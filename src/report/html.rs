@@ -24,8 +24,8 @@ const STYLE: &str = "body{font-family:system-ui,-apple-system,'Segoe UI',Roboto,
 h1{font-size:1.7rem;margin-bottom:.2rem}h2{border-bottom:2px solid #ddd;padding-bottom:.2rem;margin-top:2.2rem}
 table{border-collapse:collapse;font-size:.85rem;margin:.8rem 0}th,td{border:1px solid #ccc;padding:.3rem .45rem;vertical-align:top}
 th{background:#f0f3f6;text-align:left}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
-tr:nth-child(even) td{background:#fafbfc}.scroll{overflow-x:auto}figure{margin:1rem 0;display:inline-block;vertical-align:top}
-figcaption{font-size:.85rem;color:#555;max-width:640px}svg.plot{max-width:100%;height:auto;border:1px solid #eee}
+tr:nth-child(even) td{background:#fafbfc}.scroll{overflow-x:auto}figure{margin:1rem 1.2rem 1rem 0;display:inline-table;vertical-align:top}
+figcaption{display:table-caption;caption-side:bottom;font-size:.85rem;color:#555}svg.plot{max-width:100%;height:auto;border:1px solid #eee}
 .note{font-size:.85rem;color:#555}.failed{color:#a40000}.caution{background:#fff8e5;border-left:4px solid #e0a800;padding:.6rem 1rem}";
 
 fn table(t: &Table, out: &mut String) {
@@ -37,7 +37,11 @@ fn table(t: &Table, out: &mut String) {
     for row in &t.rows {
         out.push_str("<tr>");
         for (i, cell) in row.iter().enumerate() {
-            let class = if i == 0 { "" } else { " class=\"num\"" };
+            let class = if i > 0 && t.numeric {
+                " class=\"num\""
+            } else {
+                ""
+            };
             let lines: Vec<String> = cell.iter().map(|l| escape(l)).collect();
             let _ = write!(out, "<td{class}>{}</td>", lines.join("<br>"));
         }
