@@ -349,6 +349,15 @@ fn manifest_mistakes_stop_the_batch_before_any_solve() {
             "{text}: results folder made"
         );
     }
+    // A huge file given as manifest is refused by its size, before it is read.
+    let big = std::fs::File::create(dir.path().join("big.toml")).unwrap();
+    big.set_len(1 << 30).unwrap();
+    let (got, _, stderr) = batch(dir.path(), "big.toml", "out", &[]);
+    assert_eq!(got, 3, "{stderr}");
+    assert!(
+        stderr.contains("big.toml") && stderr.contains("far more"),
+        "{stderr}"
+    );
 }
 
 #[test]

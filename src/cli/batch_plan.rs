@@ -181,8 +181,8 @@ pub fn from_manifest(
     axis: &str,
     boundary: &BoundaryArgs,
 ) -> Result<Vec<Planned>> {
-    let text =
-        std::fs::read_to_string(manifest).map_err(|e| Error::bad_input(manifest, e.to_string()))?;
+    // A manifest is a few kilobytes; the same cap as for result files keeps a wrong file out.
+    let text = voxperm::report::result::read_small(manifest, "batch manifest")?;
     let bad = |m: String| Error::Usage(format!("{}: {m}", manifest.display()));
     let mut table: toml::Table = toml::from_str(&text).map_err(|e| {
         let msg = e.message().to_string();

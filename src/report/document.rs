@@ -398,7 +398,11 @@ fn method_text(r: &ResultView) -> String {
     };
     let force = match v.force {
         Some(g) => format!("a body force g = {g:e} (lattice units) given by the user"),
-        None => "a body force chosen from the pore size so that the flow stays slow (peak speed about 2e-3, Reynolds number below 0.01)".into(),
+        None => format!(
+            "a body force chosen from the pore size so that the flow stays slow (target peak speed {} lattice units, Reynolds number below {})",
+            v.target_speed.map_or("–".into(), |u| format!("{u:e}")),
+            crate::lbm::solver::TARGET_REYNOLDS
+        ),
     };
     let axes: Vec<String> = r.axes.iter().map(|a| a.axis.to_string()).collect();
     format!(

@@ -14,6 +14,24 @@ use serde::{Deserialize, Serialize};
 use serde_json::Value;
 use std::path::Path;
 
+/// Largest result or summary file we read. Real ones are tens of kilobytes (a flow snapshot is
+/// at most 128 × 128 levels); the cap keeps a wrong file from being read into memory whole.
+pub const MAX_RESULT_BYTES: u64 = 64 << 20;
+
+/// Reads a text file of at most [`MAX_RESULT_BYTES`], checking the size first.
+pub fn read_small(path: &Path, what: &str) -> Result<String> {
+    let bad = |m: String| Error::bad_input(path, m);
+    let len = std::fs::metadata(path)
+        .map_err(|e| bad(crate::volume::one_line(&e.to_string())))?
+        .len();
+    if len > MAX_RESULT_BYTES {
+        return Err(bad(format!(
+            "{len} bytes is far more than any {what} (at most {MAX_RESULT_BYTES})"
+        )));
+    }
+    std::fs::read_to_string(path).map_err(|e| bad(crate::volume::one_line(&e.to_string())))
+}
+
 /// One sample's result as written by `estimate --json` and by `batch`.
 #[derive(Debug, Clone, Serialize)]
 pub struct SampleResult {
@@ -67,6 +85,8 @@ pub struct SolverView {
     pub max_steps: usize,
     pub check_every: usize,
     pub force: Option<f64>,
+    /// Peak speed the automatic force aims at, lattice units.
+    pub target_speed: Option<f64>,
 }
 
 /// The run settings as recorded.
@@ -159,9 +179,7 @@ impl ResultView {
 
     /// Reads and parses a result file.
     pub fn read(path: &Path) -> Result<ResultView> {
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| Error::bad_input(path, crate::volume::one_line(&e.to_string())))?;
-        ResultView::parse(&text, path)
+        ResultView::parse(&read_small(path, "voxperm result file")?, path)
     }
 
     /// The figures of one axis, if it was solved.

@@ -197,8 +197,7 @@ pub fn read_summary_json(path: &Path) -> Result<Vec<SummaryRow>> {
     struct Doc {
         samples: Vec<SummaryRow>,
     }
-    let text = std::fs::read_to_string(path)
-        .map_err(|e| Error::bad_input(path, crate::volume::one_line(&e.to_string())))?;
+    let text = super::result::read_small(path, "voxperm batch summary")?;
     let doc: Doc = serde_json::from_str(&text)
         .map_err(|e| Error::bad_input(path, format!("not a voxperm batch summary: {e}")))?;
     Ok(doc.samples)
