@@ -42,7 +42,7 @@ fn svg(
     Ok(out)
 }
 
-/// Whole decades around the positive values (one decade each way when they are all equal).
+/// Whole decades around the positive values, at least two.
 pub fn log_range(values: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
     let (lo, hi) = values
         .filter(|v| v.is_finite() && *v > 0.0)
@@ -50,11 +50,9 @@ pub fn log_range(values: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
     if hi <= 0.0 {
         return None;
     }
-    let (mut a, mut b) = (lo.log10().floor(), hi.log10().ceil());
-    if b - a < 1.0 {
-        a -= 0.5;
-        b += 0.5;
-    }
+    // At least two decades, so the axis always has labelled ticks.
+    let b = hi.log10().ceil().max(lo.log10().floor() + 1.0);
+    let a = lo.log10().floor().min(b - 2.0);
     Some((10f64.powf(a), 10f64.powf(b)))
 }
 
@@ -182,6 +180,9 @@ pub fn permeability_bars(names: &[String], k: &[[Option<f64>; 3]], unit: &str) -
             .draw()
             .map_err(plot_error)?;
         for a in 0..3 {
+            if k.iter().all(|ks| ks[a].is_none_or(|v| v <= 0.0)) {
+                continue;
+            }
             let colour = AXIS_COLOURS[a];
             let bars = k.iter().enumerate().filter_map(|(i, ks)| {
                 let v = ks[a].filter(|v| *v > 0.0)?;
@@ -300,13 +301,44 @@ pub fn speed_histogram(h: &SpeedHistogram, title: &str) -> Result<String> {
     })
 }
 
+/// Largest side of a drawn map: finer maps are averaged over 2×2 cells (repeatedly), so a page
+/// with many samples stays light (at most 4096 rectangles per map).
+const DRAWN_MAX_SIDE: usize = 64;
+
+/// The map's levels averaged over f×f cells, with the new width, height and f.
+fn coarsen(m: &SpeedMap) -> (Vec<Option<u8>>, usize, usize, usize) {
+    let mut f = 1;
+    while m.width.div_ceil(f) > DRAWN_MAX_SIDE || m.height.div_ceil(f) > DRAWN_MAX_SIDE {
+        f *= 2;
+    }
+    let (w, h) = (m.width.div_ceil(f), m.height.div_ceil(f));
+    let mut out = Vec::with_capacity(w * h);
+    for r in 0..h {
+        for c in 0..w {
+            let (mut sum, mut n) = (0u32, 0u32);
+            for rr in r * f..((r + 1) * f).min(m.height) {
+                for cc in c * f..((c + 1) * f).min(m.width) {
+                    if let Some(v) = m.levels[rr * m.width + cc] {
+                        sum += u32::from(v);
+                        n += 1;
+                    }
+                }
+            }
+            out.push((n > 0).then(|| ((sum + n / 2) / n) as u8));
+        }
+    }
+    (out, w, h, f)
+}
+
 /// The mid-plane speed map as coloured blocks (grey: no fluid) with a colour bar.
 pub fn speed_map(m: &SpeedMap, voxel_m: Option<f64>, title: &str) -> Result<String> {
     let (unit, per_cell) = match voxel_m {
         Some(dx) => ("µm", m.block as f64 * dx * 1e6),
         None => ("voxels", m.block as f64),
     };
-    let (w, h) = (m.width as f64 * per_cell, m.height as f64 * per_cell);
+    let (levels, width, height, f) = coarsen(m);
+    let per_cell = per_cell * f as f64;
+    let (w, h) = (width as f64 * per_cell, height as f64 * per_cell);
     let peak = 255.0 * m.scale;
     svg((560, 460), |root| {
         let (left, right) = root.split_horizontally(470);
@@ -331,11 +363,11 @@ pub fn speed_map(m: &SpeedMap, voxel_m: Option<f64>, title: &str) -> Result<Stri
             Some(v) => ViridisRGB::get_color(f64::from(v / 4) / 63.0),
         };
         let mut rects = Vec::new();
-        for r in 0..m.height {
-            let row = &m.levels[r * m.width..(r + 1) * m.width];
+        for r in 0..height {
+            let row = &levels[r * width..(r + 1) * width];
             let mut start = 0;
-            for col in 1..=m.width {
-                if col == m.width || colour(row[col]) != colour(row[start]) {
+            for col in 1..=width {
+                if col == width || colour(row[col]) != colour(row[start]) {
                     let (x0, x1) = (start as f64 * per_cell, col as f64 * per_cell);
                     let (y0, y1) = (r as f64 * per_cell, (r + 1) as f64 * per_cell);
                     rects.push(Rectangle::new(
@@ -373,4 +405,39 @@ pub fn speed_map(m: &SpeedMap, voxel_m: Option<f64>, title: &str) -> Result<Stri
         bar.draw_series(steps).map_err(plot_error)?;
         Ok(())
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn log_range_spans_whole_decades() {
+        assert_eq!(log_range([0.3, 7.0].into_iter()), Some((0.1, 10.0)));
+        assert_eq!(log_range([0.3].into_iter()), Some((0.01, 1.0)));
+        assert_eq!(log_range([0.0, -1.0, f64::NAN].into_iter()), None);
+    }
+
+    #[test]
+    fn coarse_maps_average_fluid_cells_only() {
+        let mut levels = vec![Some(10u8); 130 * 3];
+        levels[0] = None;
+        levels[1] = Some(20);
+        let m = SpeedMap {
+            horizontal: Axis::Y,
+            vertical: Axis::Z,
+            plane_index: 0,
+            block: 1,
+            width: 130,
+            height: 3,
+            scale: 1.0,
+            levels,
+        };
+        let (out, w, h, f) = coarsen(&m);
+        // 130 needs f = 4 to fit 64: ceil(130/4) = 33 columns, ceil(3/4) = 1 row.
+        assert_eq!((w, h, f), (33, 1, 4));
+        // First block: 4 columns × 3 rows, one solid cell ignored, one 20 and ten 10s: 120/11 → 11.
+        assert_eq!(out[0], Some(11));
+        assert_eq!(out[32], Some(10));
+    }
 }
