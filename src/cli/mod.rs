@@ -5,6 +5,8 @@ mod args;
 mod describe;
 mod estimate;
 mod progress;
+mod synth;
+mod synth_output;
 
 use clap::{Parser, Subcommand};
 use voxperm::error::exit;
@@ -23,6 +25,8 @@ enum Command {
     Estimate(estimate::EstimateArgs),
     /// Geometry only: porosity, connectivity, surface, Kozeny–Carman, memory a solve needs.
     Describe(describe::DescribeArgs),
+    /// Build a synthetic structure (sphere arrays and packs, fibre mats, foams, channels).
+    Synth(synth::SynthArgs),
 }
 
 /// Runs the command line and returns the process exit code.
@@ -42,6 +46,7 @@ pub fn main() -> i32 {
     let result = match cli.command {
         Command::Estimate(a) => estimate::run(a),
         Command::Describe(a) => describe::run(a),
+        Command::Synth(a) => synth::run(a),
     };
     match result {
         Ok(code) => code,
