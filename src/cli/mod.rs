@@ -2,6 +2,7 @@
 //! mapping from library errors to one-line messages and exit codes. No physics lives here.
 
 mod args;
+mod check;
 mod describe;
 mod estimate;
 mod progress;
@@ -27,6 +28,8 @@ enum Command {
     Describe(describe::DescribeArgs),
     /// Build a synthetic structure (sphere arrays and packs, fibre mats, foams, channels).
     Synth(synth::SynthArgs),
+    /// Run the built-in reference suite against published and analytic results.
+    Check(check::CheckArgs),
 }
 
 /// Runs the command line and returns the process exit code.
@@ -47,6 +50,7 @@ pub fn main() -> i32 {
         Command::Estimate(a) => estimate::run(a),
         Command::Describe(a) => describe::run(a),
         Command::Synth(a) => synth::run(a),
+        Command::Check(a) => check::run(a),
     };
     match result {
         Ok(code) => code,
