@@ -1,7 +1,7 @@
 //! The one table of published reference values voxperm checks itself against (`voxperm check`,
-//! `analysis::check`), each value or formula with its source beside it. The sources are listed
-//! with full citations in /work/shared/REFERENCES.md; entries marked "from memory" there are
-//! marked `from_memory` here and printed as such.
+//! `analysis::check`), each value or formula with its source beside it: a short form for tables
+//! and the full citation. A value or formula recalled from memory rather than checked against
+//! the paper's text is marked `from_memory`, and every table that prints it says so.
 //!
 //! Permeabilities are dimensionless: k over the square of a length of the geometry (slit gap,
 //! duct side, tube radius, sphere or cylinder radius a). "Per open area" values are the mean
@@ -139,7 +139,8 @@ pub fn sphere_array_k_over_a2(c: f64, drag: f64) -> f64 {
 
 /// Dilute expansion for cubic arrays, 1/K = 1 − α c^{1/3} + c − 1.5593 c² (Hasimoto 1959;
 /// Sangani & Acrivos 1982); the c and c² terms are from memory and the c² coefficient belongs to
-/// the simple cubic lattice, so it is used here only at c ≲ 0.02 where that term is < 0.07 %.
+/// the simple cubic lattice, so it is used here only at c ≲ 0.02, where the whole c² term is
+/// about 0.1 % of 1/K and the next terms of the simple-cubic series about 0.02 %.
 pub const DILUTE_SERIES: Source = Source {
     short: "Hasimoto 1959 series, α by lattice sum",
     citation: "Hasimoto, H. (1959) J. Fluid Mech. 5, 317; Sangani, A. S. & Acrivos, A. (1982) \
@@ -171,7 +172,7 @@ pub fn dilute_drag(lattice: Lattice, c: f64) -> f64 {
 
 /// The simple-cubic series with two more terms, + 3.9799 c^{8/3} − 3.0734 c^{10/3}
 /// (Sangani & Acrivos 1982, from memory); matches Zick & Homsy's Table 2 to 0.06 % up to
-/// c = 0.125 (REFERENCES.md).
+/// c = 0.125 (our project's reference notes; checked in the tests below).
 pub const SC_SERIES: Source = Source {
     short: "Sangani & Acrivos 1982, SC series",
     citation: "Sangani, A. S. & Acrivos, A. (1982) Int. J. Multiphase Flow 8, 343: 1/K = 1 − \
@@ -279,12 +280,13 @@ pub const CARMAN_KOZENY_SCATTER: f64 = 0.25;
 mod tests {
     use super::*;
 
-    // Consistency of the tables with each other and with REFERENCES.md's derived columns; these
-    // are arithmetic checks of our transcription, not of the solver.
+    // Consistency of the tables with each other and with the derived columns of our project's
+    // reference notes (k/a² next to each table entry); these are arithmetic checks of our
+    // transcription, not of the solver.
 
     #[test]
     fn zick_homsy_k_over_a2_matches_the_derived_column() {
-        // REFERENCES.md lists k/a² = 2/(9cK) next to Table 2: 4.09883 at c = 0.027, 0.0420700
+        // Derived column k/a² = 2/(9cK) next to Table 2: 4.09883 at c = 0.027, 0.0420700
         // at c = 0.343.
         let k = sphere_array_k_over_a2(0.027, zick_homsy_drag(0.027).unwrap());
         assert!((k / 4.09883 - 1.0).abs() < 1e-5, "{k}");
@@ -316,7 +318,7 @@ mod tests {
 
     #[test]
     fn sc_series_reproduces_table_2_in_the_dilute_range() {
-        // REFERENCES.md: the extended series matches Table 2 to 0.06 % up to c = 0.125.
+        // The extended series matches Table 2 to 0.06 % up to c = 0.125 (from memory).
         for c in [0.027, 0.064, 0.125] {
             let k = sc_series_drag(c);
             let t = zick_homsy_drag(c).unwrap();
@@ -335,7 +337,7 @@ mod tests {
             let dt = drummond_tahir_across(CylinderPacking::Square, phi);
             assert!((dt / sa - 1.0).abs() < 1e-3, "phi {phi}: {dt} vs {sa}");
         }
-        // Derived column of REFERENCES.md: k/a² = 0.304831 at φ = 0.2.
+        // Derived column next to Table 1: k/a² = 0.304831 at φ = 0.2.
         let k = cylinder_k_over_a2(0.2, sangani_acrivos_drag(0.2).unwrap());
         assert!((k / 0.304831 - 1.0).abs() < 1e-5);
     }
