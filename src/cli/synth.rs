@@ -546,6 +546,69 @@ impl FibresArgs {
     }
 }
 
+/// Voxels of the box a structure will fill, from its parameters (an upper bound for the
+/// hexagonal cylinder cell and the tube, whose exact sizes the generator rounds); saturates
+/// instead of overflowing.
+fn claimed_voxels(s: &Structure) -> u64 {
+    let prod = |v: &[u64]| v.iter().fold(1u64, |a, &b| a.saturating_mul(b));
+    let n = |x: usize| x as u64;
+    match s {
+        Structure::SpherePack(p) => prod(&p.shape.map(n)),
+        Structure::Boolean(p) => prod(&p.shape.map(n)),
+        Structure::Fibres(p) => prod(&p.shape.map(n)),
+        Structure::Foam(p) => prod(&p.shape.map(n)),
+        Structure::SlitStack(p) => prod(&p.shape.map(n)),
+        Structure::Slit(p) => prod(&p.shape.map(n)),
+        Structure::SphereArray(p) => prod(&p.cells.map(|c| n(c).saturating_mul(n(p.cell)))),
+        Structure::CylinderArray(p) => {
+            let long = match p.packing {
+                CylinderPacking::Square => n(p.cell),
+                CylinderPacking::Hexagonal => n(p.cell).saturating_mul(2),
+            };
+            prod(&[
+                n(p.cell).saturating_mul(n(p.cells[0])),
+                long.saturating_mul(n(p.cells[1])),
+                n(p.length.unwrap_or(p.cell)),
+            ])
+        }
+        Structure::SquareDuct(p) => {
+            let across = n(p.side).saturating_add(n(p.wall).saturating_mul(2));
+            prod(&[across, across, n(p.length)])
+        }
+        Structure::Tube(p) => {
+            let r = if p.radius.is_finite() {
+                p.radius.clamp(0.0, 1e9).ceil() as u64
+            } else {
+                u64::MAX / 4
+            };
+            let across = r
+                .saturating_mul(2)
+                .saturating_add(n(p.wall).saturating_mul(2));
+            prod(&[across, across, n(p.length)])
+        }
+    }
+}
+
+/// Refuses a structure whose mask, written copy and (for Voronoi foams) distance field would
+/// not fit in `available` bytes, before the generator allocates anything.
+fn check_memory(s: &Structure, available: u64) -> Result<()> {
+    // Mask and the u8 volume written from it; the Voronoi foam adds an f32 distance per voxel.
+    let per_voxel = match s {
+        Structure::Foam(p) if p.method == FoamMethod::Voronoi => 6,
+        _ => 2,
+    };
+    let voxels = claimed_voxels(s);
+    let need = voxels.saturating_mul(per_voxel);
+    if need > available / 10 * 9 {
+        return Err(Error::Usage(format!(
+            "synth: {voxels} voxels need about {} but only {} of memory is available; make the box smaller",
+            voxperm::error::human_bytes(need),
+            voxperm::error::human_bytes(available)
+        )));
+    }
+    Ok(())
+}
+
 /// Runs the command.
 pub fn run(a: SynthArgs) -> Result<i32> {
     let out = a.kind.output();
@@ -573,6 +636,7 @@ pub fn run(a: SynthArgs) -> Result<i32> {
         quiet: out.quiet,
     };
     plan.check()?;
+    check_memory(&structure, voxperm::volume::available_memory_bytes())?;
     let built = generate(&structure, seed.unwrap_or(0))?;
     write_and_report(&plan, &structure, seed, &built)?;
     Ok(voxperm::error::exit::OK)
@@ -601,6 +665,31 @@ mod tests {
             choose("--lattice", "FCC", &[("sc", 0), ("fcc", 1)]).unwrap(),
             1
         );
+    }
+
+    #[test]
+    fn memory_is_checked_from_the_parameters() {
+        let pack = |n: usize| {
+            Structure::SpherePack(PackParams {
+                shape: [n; 3],
+                porosity: 0.5,
+                radius: RadiusDist::Mono { radius: 4.0 },
+                method: PackMethod::Auto,
+            })
+        };
+        assert_eq!(claimed_voxels(&pack(100)), 1_000_000);
+        assert!(check_memory(&pack(100), 4 << 20).is_ok());
+        let e = check_memory(&pack(1000), 1 << 30).unwrap_err();
+        assert!(e.to_string().contains("1000000000 voxels"), "{e}");
+        let huge = Structure::SphereArray(SphereArrayParams {
+            lattice: Lattice::Sc,
+            solid_fraction: 0.1,
+            cell: usize::MAX,
+            cells: [usize::MAX; 3],
+            match_voxels: true,
+        });
+        assert_eq!(claimed_voxels(&huge), u64::MAX);
+        assert!(check_memory(&huge, u64::MAX).is_err());
     }
 
     #[test]
