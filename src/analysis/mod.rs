@@ -1,9 +1,11 @@
 //! From flow fields and geometry to the numbers a practitioner reads: permeability (lattice, m²,
 //! mD) along an axis and as a tensor, tortuosity, flow-regime numbers, Kozeny–Carman.
 
+pub mod check;
 pub mod estimate;
 pub mod flow;
 pub mod kozeny;
+pub mod references;
 pub mod run;
 pub mod tensor;
 pub mod units;

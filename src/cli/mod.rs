@@ -5,10 +5,13 @@ mod args;
 mod batch;
 mod batch_plan;
 mod batch_progress;
+mod check;
 mod describe;
 mod estimate;
 mod progress;
 mod report;
+mod synth;
+mod synth_output;
 
 use clap::{Parser, Subcommand};
 use voxperm::error::exit;
@@ -37,6 +40,10 @@ enum Command {
     Batch(batch::BatchArgs),
     /// Comparison report (HTML and/or Markdown with SVG plots) over result files.
     Report(report::ReportArgs),
+    /// Build a synthetic structure (sphere arrays and packs, fibre mats, foams, channels).
+    Synth(synth::SynthArgs),
+    /// Run the built-in reference suite against published and analytic results.
+    Check(check::CheckArgs),
 }
 
 /// Runs the command line and returns the process exit code.
@@ -58,6 +65,8 @@ pub fn main() -> i32 {
         Command::Describe(a) => describe::run(a),
         Command::Batch(a) => batch::run(a),
         Command::Report(a) => report::run(a),
+        Command::Synth(a) => synth::run(a),
+        Command::Check(a) => check::run(a),
     };
     match result {
         Ok(code) => code,
