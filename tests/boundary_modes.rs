@@ -16,7 +16,7 @@ fn config(axes: Vec<Axis>, mode: BoundaryMode) -> EstimateConfig {
     }
 }
 
-/// Square-duct value per open area in units of side² (REFERENCES.md: White, Viscous Fluid Flow;
+/// Square-duct value per open area in units of side² (White, Viscous Fluid Flow;
 /// Shah & London 1978).
 const SQUARE_DUCT: f64 = 0.0351442537;
 
@@ -43,7 +43,7 @@ fn sealed_sides_turn_an_open_block_into_the_square_duct() {
 }
 
 /// A slit with buffers of free fluid at both ends: with the pressure drop measured across the
-/// sample, k is the slit's (plane Poiseuille, REFERENCES.md) up to the entrance and exit losses at
+/// sample, k is the slit's (White, Viscous Fluid Flow, plane Poiseuille flow) up to the entrance and exit losses at
 /// the buffer–slit junctions. Those are a fixed extra resistance, so the error must fall like
 /// 1/length: measured 5.5 % at 32 voxels and about a third of that at 96.
 #[test]
@@ -112,7 +112,7 @@ fn mirror_ends_give_series_slits() {
 }
 
 /// Walls normal to z: k_xx = k_yy = the slit value, and no path along z gives k_zz = 0 with a note
-/// instead of a failure (REFERENCES.md, plane Poiseuille).
+/// instead of a failure (White, Viscous Fluid Flow, plane Poiseuille flow).
 #[test]
 fn layered_slits_give_a_diagonal_tensor_with_zero_normal_permeability() {
     let gap = 6usize;
@@ -138,7 +138,7 @@ fn layered_slits_give_a_diagonal_tensor_with_zero_normal_permeability() {
 /// A slit band inclined at 45° in the x–y plane: the tensor is k_par (t tᵀ + e_z e_zᵀ) with
 /// t = (1, −1, 0)/√2, so it must come out symmetric, with principal directions t and z (value
 /// k_par) and (1, 1, 0)/√2 (value 0: the bands do not connect across). Force along x, flow along
-/// t: hydraulic tortuosity 1/cos 45° = √2 (REFERENCES.md, "Tortuosity").
+/// t: hydraulic tortuosity 1/cos 45° = √2 (Koponen, Kataja & Timonen 1996, Phys. Rev. E 54, 406, define T; exact for straight streamlines).
 #[test]
 fn inclined_slit_tensor_is_symmetric_with_the_right_principal_axes() {
     let (n, period, gap) = (24usize, 8usize, 5usize);

@@ -128,8 +128,8 @@ fn one_corrupt_file_fails_alone_and_the_summary_loads_with_units() {
         assert!(f(r, "steps") > 0.0 && f(r, "wall_s") >= 0.0);
         assert_eq!(&r[col("converged")], "true");
     }
-    // The slit: 5 fluid layers in a period of 6 along y, flow along x (plane Poiseuille,
-    // REFERENCES.md): k = (25/12 + 1/24)·5/6 voxel²; the loose tolerance costs well under 1 %.
+    // The slit: 5 fluid layers in a period of 6 along y, flow along x (plane Poiseuille flow,
+    // White, Viscous Fluid Flow): k = (25/12 + 1/24)·5/6 voxel²; the loose tolerance costs well under 1 %.
     let want = (25.0 / 12.0 + 1.0 / 24.0) * 5.0 / 6.0;
     let got = f(&rows[1], "permeability_x_voxel2");
     assert!((got / want - 1.0).abs() < 0.01, "slit k {got} vs {want}");

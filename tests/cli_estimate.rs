@@ -131,7 +131,7 @@ fn axis_all_gives_the_tensor_and_names_the_blocked_axis() {
         serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
     let t = v["permeability_tensor_m2"].as_array().expect("tensor");
     assert_eq!(t.len(), 3);
-    // Slit of 4 fluid layers in a period of 5 (REFERENCES.md, plane Poiseuille): k = (16/12 + 1/24)·4/5 voxel².
+    // Slit of 4 fluid layers in a period of 5 (White, Viscous Fluid Flow, plane Poiseuille flow): k = (16/12 + 1/24)·4/5 voxel².
     let want = (16.0 / 12.0 + 1.0 / 24.0) * 0.8 * 1e-12;
     let kxx = t[0][0].as_f64().unwrap();
     assert!((kxx / want - 1.0).abs() < 5e-3, "k_xx {kxx} vs {want}");
@@ -416,7 +416,7 @@ fn threshold_and_crop_on_a_grey_image() {
             .contains("grey.tif")
     );
     assert!((v["porosity"].as_f64().unwrap() - 4.0 / 6.0).abs() < 1e-12);
-    // Slit of 4 fluid layers in a period of 6 (plane Poiseuille, REFERENCES.md).
+    // Slit of 4 fluid layers in a period of 6 (White, Viscous Fluid Flow, plane Poiseuille flow).
     let want = (16.0 / 12.0 + 1.0 / 24.0) * 4.0 / 6.0;
     let k = v["permeability_lattice"].as_f64().unwrap();
     assert!((k / want - 1.0).abs() < 5e-3, "k {k} vs {want}");

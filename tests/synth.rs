@@ -216,7 +216,7 @@ fn sphere_arrays_pick_the_radius_closest_to_the_requested_fraction() {
                     info.analytic_radius
                 );
             }
-            // Equivalent radius a = (3 V / 4πn)^{1/3} (REFERENCES.md, Zick & Homsy entry).
+            // Equivalent radius a = (3 V / 4πn)^{1/3} (Zick & Homsy 1982, J. Fluid Mech. 115, 13: k = 2a²/(9cK)).
             let a = (3.0 * solid_fraction(&s.mask) * n_vox / (4.0 * PI * n)).cbrt();
             assert!((info.equivalent_radius - a).abs() < 1e-9);
             assert_eq!(info.objects, lattice.spheres_per_cell());

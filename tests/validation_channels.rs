@@ -4,7 +4,7 @@ use common::*;
 use voxperm::geometry::Axis;
 
 /// Plane Poiseuille flow: mean over the N fluid nodes of the exact parabola gives
-/// k = N²/12 + 1/24 per open area (REFERENCES.md, "Straight channels"; midpoint sampling of
+/// k = N²/12 + 1/24 per open area (White, Viscous Fluid Flow, plane Poiseuille flow; midpoint sampling of
 /// h²/12 with h = N under half-way bounce-back). TRT with Λ = 3/16 reproduces it to round-off
 /// (Ginzburg et al. 2008), so 0.5 % is a loose bound.
 #[test]
@@ -26,7 +26,7 @@ fn slit_matches_plane_poiseuille_for_every_wall_orientation() {
                 "normal {normal} flow {flow}: k {} vs {want} ({err:.2e})",
                 r.permeability
             );
-            // Straight streamlines: hydraulic tortuosity exactly 1 (REFERENCES.md, "Tortuosity").
+            // Straight streamlines: hydraulic tortuosity exactly 1 (Koponen, Kataja & Timonen 1996, Phys. Rev. E 54, 406, define T; exact for straight streamlines).
             assert!(
                 (r.tortuosity - 1.0).abs() < 1e-6,
                 "tortuosity {}",

@@ -26,7 +26,7 @@ fn sphere_for_fraction(l: usize, c: f64) -> (PoreMask, f64) {
 
 /// Zick, A. A. & Homsy, G. M. (1982) J. Fluid Mech. 115, 13–26, Table 2: drag coefficient K of a
 /// simple cubic array at solid fraction c; k = 2a²/(9cK). The voxelised sphere's radius is taken
-/// from its voxel volume, a = (3 V_solid / 4π)^{1/3}, and c from the voxel count (REFERENCES.md).
+/// from its voxel volume, a = (3 V_solid / 4π)^{1/3}, and c from the voxel count.
 /// Within 3 % at a 40-voxel cell.
 #[test]
 fn simple_cubic_arrays_match_zick_homsy_table_2() {

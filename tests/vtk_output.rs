@@ -172,8 +172,8 @@ fn assert_cells_match_field(r: &Read, k: &KeptField, stride: usize) {
 }
 
 /// Plane Poiseuille flow in a periodic slit of N = 8 fluid layers (8×9×4, solid layer y = 8).
-/// Nodal velocities follow the exact parabola u ∝ (y+½)(N−y−½) (REFERENCES.md, "Straight
-/// channels": exact for TRT with Λ = 3/16), and the Darcy velocity is its sum over the N nodes
+/// Nodal velocities follow the exact parabola u ∝ (y+½)(N−y−½) (White, Viscous Fluid Flow,
+/// plane Poiseuille flow; exact for TRT with Λ = 3/16), and the Darcy velocity is its sum over the N nodes
 /// / (N+1) layers, Σ = N(N²/6 + 1/12) from the node mean N²/6 + 1/12 of y(N−y) given there.
 /// So the written, normalised velocity is (y+½)(N−y−½)(N+1) / (N(N²/6 + 1/12)).
 #[test]

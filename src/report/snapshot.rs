@@ -134,7 +134,7 @@ mod tests {
     use crate::geometry::PoreMask;
     use crate::lbm::{BoundaryMode, Silent, SolverSettings};
 
-    /// A periodic slit along x: plane Poiseuille flow (REFERENCES.md, straight channels), and
+    /// A periodic slit along x: plane Poiseuille flow (White, Viscous Fluid Flow, plane Poiseuille flow), and
     /// with TRT at Λ = 3/16 the nodal velocities are the exact parabola u ∝ y'(N − y') at the
     /// node centres y' = y + ½. For N = 6: 2.75, 6.75, 8.75, 8.75, 6.75, 2.75, mean 6.0833, so
     /// the map is constant along z, peaks at the two middle layers, and peak/mean = 1.4384.

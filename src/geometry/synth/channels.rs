@@ -1,5 +1,5 @@
 //! Straight channels with analytic permeabilities, for solver tests: a plane slit, a square duct
-//! and a circular tube (REFERENCES.md "Straight channels"). Each is periodic along its channel
+//! and a circular tube (White, Viscous Fluid Flow: plane Poiseuille, Hagen–Poiseuille and the rectangular duct). Each is periodic along its channel
 //! axis and walled across it.
 
 use super::super::PoreMask;

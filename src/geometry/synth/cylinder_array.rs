@@ -30,7 +30,7 @@ pub enum CylinderPacking {
 
 impl CylinderPacking {
     /// Close-packing solid fraction of the ideal lattice: π/4 (square), π/(2√3) (hexagonal)
-    /// (REFERENCES.md, Gebart 1992 entry).
+    /// (Gebart 1992, J. Composite Materials 26, 1100 — from memory).
     pub fn max_solid_fraction(self) -> f64 {
         match self {
             CylinderPacking::Square => PI / 4.0,

@@ -1,6 +1,6 @@
 //! Layered media for anisotropy tests: a periodic stack of plane slits normal to one axis. Flow
-//! along the layers sees plane Poiseuille channels (k = gap² / 12 per open area, REFERENCES.md
-//! "Straight channels"); flow across them sees none. Stretched grains, the other anisotropic
+//! along the layers sees plane Poiseuille channels (k = gap² / 12 per open area, White, Viscous
+//! Fluid Flow, plane Poiseuille flow); flow across them sees none. Stretched grains, the other anisotropic
 //! family, live with the Boolean model (`grains.rs`, [`super::Stretch`]).
 
 use super::canvas::fill_parallel;

@@ -7,7 +7,7 @@
 //! value whose voxel solid fraction is closest to c (exact search over distance shells, see
 //! `lattice.rs`), never beyond the touching radius. The reported equivalent radius
 //! a = (3 V_solid / (4π n))^{1/3} from the voxel count is the one to use in comparisons with
-//! Zick & Homsy (REFERENCES.md, "Voxelised spheres").
+//! Zick & Homsy (the voxel convention for Zick & Homsy 1982, J. Fluid Mech. 115, 13, Table 2).
 
 use super::canvas::fill_parallel;
 use super::lattice::{Threshold, closest_radius, count_below, wrap};
@@ -56,8 +56,8 @@ impl Lattice {
         }
     }
 
-    /// Close-packing solid fraction n (4/3) π r_t³: π/6, π√3/8 and π/(3√2) (REFERENCES.md,
-    /// Zick & Homsy section).
+    /// Close-packing solid fraction n (4/3) π r_t³: π/6, π√3/8 and π/(3√2) (geometry of
+    /// touching spheres; common practice).
     pub fn max_solid_fraction(self) -> f64 {
         self.spheres_per_cell() as f64 * 4.0 / 3.0 * PI * self.touching_radius().powi(3)
     }
