@@ -51,13 +51,13 @@ pub fn main() -> i32 {
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {
-            let code = if e.use_stderr() {
-                exit::USAGE
-            } else {
-                exit::OK
-            };
-            let _ = e.print();
-            return code;
+            if !e.use_stderr() {
+                // --help and --version: clap's own output, success.
+                let _ = e.print();
+                return exit::OK;
+            }
+            eprintln!("voxperm: {}", one_line_usage(&e.to_string()));
+            return exit::USAGE;
         }
     };
     let result = match cli.command {
@@ -74,5 +74,42 @@ pub fn main() -> i32 {
             eprintln!("voxperm: error: {e}");
             e.exit_code()
         }
+    }
+}
+
+/// Folds clap's multi-line usage error into one line: the error itself and any "tip" (the
+/// nearest valid option or value), then a pointer to --help.
+fn one_line_usage(text: &str) -> String {
+    let mut parts: Vec<&str> = text
+        .lines()
+        .map(str::trim)
+        .filter(|l| l.starts_with("error:") || l.starts_with("tip:"))
+        .collect();
+    if parts.is_empty() {
+        parts.push(text.lines().next().unwrap_or("error: bad command line"));
+    }
+    format!("{}; see --help", parts.join("; "))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn usage_errors_fold_into_one_line() {
+        let e = Cli::try_parse_from(["voxperm", "estimate", "a.tif", "--tua", "1"]).unwrap_err();
+        let line = one_line_usage(&e.to_string());
+        assert!(!line.contains('\n'), "{line}");
+        assert!(
+            line.starts_with("error: unexpected argument '--tua'"),
+            "{line}"
+        );
+        let e = Cli::try_parse_from(["voxperm", "estimat"]).unwrap_err();
+        let line = one_line_usage(&e.to_string());
+        assert!(!line.contains('\n'), "{line}");
+        assert!(
+            line.contains("'estimate'"),
+            "the nearest command should be suggested: {line}"
+        );
     }
 }
