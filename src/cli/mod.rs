@@ -2,6 +2,7 @@
 //! mapping from library errors to one-line messages and exit codes. No physics lives here.
 
 mod args;
+mod bench;
 mod describe;
 mod estimate;
 mod progress;
@@ -23,6 +24,8 @@ enum Command {
     Estimate(estimate::EstimateArgs),
     /// Geometry only: porosity, connectivity, surface, Kozeny–Carman, memory a solve needs.
     Describe(describe::DescribeArgs),
+    /// Kernel speed against measured memory bandwidth (the roofline), on generated structures.
+    Bench(bench::BenchArgs),
 }
 
 /// Runs the command line and returns the process exit code.
@@ -42,6 +45,7 @@ pub fn main() -> i32 {
     let result = match cli.command {
         Command::Estimate(a) => estimate::run(a),
         Command::Describe(a) => describe::run(a),
+        Command::Bench(a) => bench::run_cmd(a),
     };
     match result {
         Ok(code) => code,

@@ -1,6 +1,7 @@
 //! The D3Q19 lattice-Boltzmann flow solver: lattice constants, the fluid-node domain with its
 //! boundary modes, the collide-and-stream kernel and the time loop to steady state.
 
+pub mod bench;
 pub mod boundary;
 pub mod d3q19;
 pub mod domain;
