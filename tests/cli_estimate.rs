@@ -319,3 +319,108 @@ fn describe_reports_geometry_without_solving() {
     assert!(stdout.contains("Kozeny"), "{stdout}");
     assert!(stdout.contains("GiB"), "{stdout}");
 }
+
+#[test]
+fn vtk_output_has_the_sample_shape_and_fields() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    let vti = dir.path().join("flow.vti");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--voxel-size",
+        "4um",
+        "--vtk",
+        vti.to_str().unwrap(),
+        "--vtk-stride",
+        "2",
+        "--quiet",
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(stdout.is_empty(), "--quiet printed: {stdout}");
+    let text = std::fs::read_to_string(&vti).unwrap();
+    // Default scan mode (sealed sides, mirrored ends): the file shows the 10³ sample, not the
+    // doubled solver grid; stride 2 → 5³ cells of 8 µm.
+    assert!(
+        text.contains("WholeExtent=\"0 5 0 5 0 5\""),
+        "{}",
+        &text[..400.min(text.len())]
+    );
+    for name in ["velocity", "speed", "pressure", "pore"] {
+        assert!(
+            text.contains(&format!("Name=\"{name}\"")),
+            "no {name} array"
+        );
+    }
+    let vtk = vtkio::Vtk::import(&vti).expect("vtkio reads it back");
+    match vtk.data {
+        vtkio::model::DataSet::ImageData { spacing, .. } => {
+            assert!((spacing[0] as f64 - 8e-6).abs() < 1e-12, "{spacing:?}")
+        }
+        other => panic!("not image data: {other:?}"),
+    }
+    // Bad VTK options fail before the solve.
+    let (code, _, stderr) = run(&["estimate", sample.to_str().unwrap(), "--vtk", "flow.vtk"]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains(".vti"), "{stderr}");
+    let (code, _, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--vtk",
+        vti.to_str().unwrap(),
+        "--vtk-stride",
+        "0",
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+}
+
+/// A grey 16-bit image segmented by threshold and cropped: the JSON records what was analysed.
+#[test]
+fn threshold_and_crop_on_a_grey_image() {
+    use voxperm::volume::VoxelData;
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path().join("grey.tif");
+    // 12x12x12, pore (value 1000) in a slit y < 4, solid 40000 elsewhere.
+    let shape = [12usize, 12, 12];
+    let data: Vec<u16> = (0..12 * 12 * 12)
+        .map(|i| if (i / 12) % 12 < 4 { 1000 } else { 40000 })
+        .collect();
+    let vol = Volume::new(shape, VoxelData::U16(data)).unwrap();
+    write_tiff_stack(&p, &vol, TiffCompression::Deflate, Some(1e-6)).unwrap();
+    let json = dir.path().join("g.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        p.to_str().unwrap(),
+        "--threshold",
+        "20000",
+        "--pore",
+        "below",
+        "--crop",
+        ":,0:6,2:10",
+        "--periodic",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    assert_eq!(v["input"]["shape"], serde_json::json!([12, 6, 8]));
+    assert_eq!(v["input"]["file_shape"], serde_json::json!([12, 12, 12]));
+    assert_eq!(v["input"]["sample_type"], "u16");
+    // The voxel size came from the file's tags, and the result says so.
+    assert_eq!(v["voxel_size_m"].as_f64().unwrap(), 1e-6);
+    assert!(
+        v["input"]["voxel_size_source"]
+            .as_str()
+            .unwrap()
+            .contains("grey.tif")
+    );
+    assert!((v["porosity"].as_f64().unwrap() - 4.0 / 6.0).abs() < 1e-12);
+    // Slit of 4 fluid layers in a period of 6 (plane Poiseuille, REFERENCES.md).
+    let want = (16.0 / 12.0 + 1.0 / 24.0) * 4.0 / 6.0;
+    let k = v["permeability_lattice"].as_f64().unwrap();
+    assert!((k / want - 1.0).abs() < 5e-3, "k {k} vs {want}");
+    // --threshold without --pore is refused before reading.
+    let (code, _, stderr) = run(&["estimate", p.to_str().unwrap(), "--threshold", "5"]);
+    assert_eq!(code, 2, "{stderr}");
+}

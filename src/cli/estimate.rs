@@ -11,6 +11,7 @@ use voxperm::geometry::PoreMask;
 use voxperm::geometry::surface::measure_surface;
 use voxperm::lbm::BoundaryMode;
 use voxperm::report::json::GeometryRecord;
+use voxperm::report::vtk::write_vti_with_limit;
 use voxperm::report::{EstimateReport, InputRecord, Settings, summary};
 use voxperm::volume::sample::{Sample, SampleSpec, input_sha256, load_sample};
 use voxperm::volume::{ReadLimits, write_atomically};
@@ -33,6 +34,13 @@ pub struct EstimateArgs {
     /// Write every figure, its unit and every setting to this JSON file.
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
+    /// Write the steady flow of the first axis as VTK image data (.vti): velocity, speed,
+    /// pressure (both scaled by the Darcy velocity) and the pore mask.
+    #[arg(long, value_name = "FILE.vti")]
+    pub vtk: Option<PathBuf>,
+    /// Keep every N-th voxel along each axis in the VTK file (for large volumes).
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub vtk_stride: usize,
     /// Print nothing but errors (no summary, no progress).
     #[arg(long, short)]
     pub quiet: bool,
@@ -47,6 +55,18 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     let axes = parse_axes(&a.axis)?;
     if let Some(p) = &a.json {
         check_output_path(p, "--json")?;
+    }
+    if let Some(p) = &a.vtk {
+        check_output_path(p, "--vtk")?;
+        if p.extension().and_then(|e| e.to_str()) != Some("vti") {
+            return Err(Error::Usage(format!(
+                "--vtk {}: the file name must end in .vti (VTK XML image data)",
+                p.display()
+            )));
+        }
+    }
+    if a.vtk_stride == 0 {
+        return Err(Error::Usage("--vtk-stride must be at least 1".into()));
     }
     let threads = a.solver.thread_count();
     let pool = rayon::ThreadPoolBuilder::new()
@@ -93,7 +113,7 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
         voxel_size_m: voxel_m,
     };
     let mut bar = Bar::new(a.quiet);
-    let (est, _field) = pool.install(|| estimate(&sample.mask, &cfg, &mut bar, false))?;
+    let (est, kept) = pool.install(|| estimate(&sample.mask, &cfg, &mut bar, a.vtk.is_some()))?;
     drop(bar);
 
     for ax in &est.axes {
@@ -139,6 +159,10 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
         connectivity: "pore clusters along D3Q19 links; only clusters spanning inlet to outlet are solved",
     };
     let report = EstimateReport::new(&est, input, settings, Some(geometry), voxel_m, warnings);
+    if let (Some(p), Some(kept)) = (&a.vtk, &kept) {
+        write_vti_with_limit(p, kept, voxel_m, a.vtk_stride, plan.max_memory)?;
+    }
+    drop(kept);
     if let Some(p) = &a.json {
         write_atomically(p, |w| {
             use std::io::Write;

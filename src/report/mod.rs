@@ -3,5 +3,6 @@
 
 pub mod json;
 pub mod summary;
+pub mod vtk;
 
 pub use json::{EstimateReport, InputRecord, Settings};
