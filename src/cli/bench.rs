@@ -7,6 +7,7 @@ use clap::Args;
 use std::fmt::Write as _;
 use std::path::PathBuf;
 use voxperm::lbm::bench::{BenchConfig, BenchReport, BenchStructure, run};
+use voxperm::lbm::kernel::Isa;
 use voxperm::volume::write_atomically;
 use voxperm::{Error, Result};
 
@@ -32,6 +33,9 @@ pub struct BenchArgs {
     /// Size of each of the three bandwidth arrays (keep it far above the last-level cache).
     #[arg(long, value_name = "SIZE")]
     pub array_size: Option<String>,
+    /// Kernel build to time: portable, avx2 or avx512 (default: the best this CPU runs).
+    #[arg(long, value_name = "BUILD")]
+    pub isa: Option<String>,
     /// Write every figure to this JSON file.
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
@@ -83,6 +87,18 @@ pub fn run_cmd(a: BenchArgs) -> Result<i32> {
     if let Some(s) = &a.array_size {
         cfg.bandwidth_array_bytes = usize::try_from(parse_bytes(s)?)
             .map_err(|_| Error::Usage(format!("--array-size {s} is too large")))?;
+    }
+    if let Some(isa) = &a.isa {
+        cfg.isa = Some(match isa.as_str() {
+            "portable" => Isa::Portable,
+            "avx2" => Isa::Avx2,
+            "avx512" => Isa::Avx512,
+            other => {
+                return Err(Error::Usage(format!(
+                    "--isa {other}: expected portable, avx2 or avx512"
+                )));
+            }
+        });
     }
     let available = voxperm::volume::available_memory_bytes();
     let bw_need = 3 * cfg.bandwidth_array_bytes as u64;

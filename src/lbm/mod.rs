@@ -3,10 +3,13 @@
 
 pub mod bench;
 pub mod boundary;
+pub mod collide;
 pub mod d3q19;
 pub mod domain;
 pub mod kernel;
 pub mod memory;
+#[cfg(target_arch = "x86_64")]
+mod odd_x86;
 pub mod solver;
 
 pub use boundary::{BoundaryMode, Ends, Sides};

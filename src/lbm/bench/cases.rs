@@ -3,7 +3,7 @@
 //! repetitions, on a rayon pool of a given size.
 
 use super::super::domain::Domain;
-use super::super::kernel::{KernelParams, Lattice};
+use super::super::kernel::{Isa, KernelParams, Lattice};
 use super::super::solver::{SolverSettings, auto_force};
 use super::traffic::{Traffic, attainable_mlups, traffic};
 use crate::geometry::synth::{FoamMethod, FoamParams, PackMethod, PackParams, RadiusDist};
@@ -109,6 +109,7 @@ pub fn time_kernel(
     reps: usize,
     min_seconds: f64,
     max_bytes: u64,
+    isa: Option<Isa>,
 ) -> Result<KernelCase> {
     let domain = Domain::build(mask, Axis::X, BoundaryMode::PERIODIC, max_bytes)?;
     let n = domain.fluid_nodes();
@@ -124,6 +125,9 @@ pub fn time_kernel(
     };
     let (pairs, even_s, odd_s) = pool.install(|| {
         let mut lattice = Lattice::at_rest(&domain);
+        if let Some(isa) = isa {
+            lattice.set_isa(isa, &domain);
+        }
         let pair = |lattice: &mut Lattice| {
             let t = Instant::now();
             lattice.step(&domain, &params);

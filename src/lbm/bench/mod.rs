@@ -10,6 +10,7 @@ pub use bandwidth::{Bandwidth, measure as measure_bandwidth};
 pub use cases::{BenchStructure, FOAM_POROSITY, KernelCase, PACK_POROSITY, time_kernel};
 pub use traffic::{Traffic, attainable_mlups, traffic};
 
+use super::kernel::Isa;
 use crate::{Error, Result};
 
 /// What to measure.
@@ -30,6 +31,8 @@ pub struct BenchConfig {
     pub seed: u64,
     /// Memory cap for one kernel case, bytes.
     pub max_bytes: u64,
+    /// Kernel build to time (`None`: the best this CPU runs).
+    pub isa: Option<Isa>,
 }
 
 impl BenchConfig {
@@ -44,6 +47,7 @@ impl BenchConfig {
             min_seconds: 0.5,
             seed: 1,
             max_bytes: u64::MAX,
+            isa: None,
         }
     }
 
@@ -116,6 +120,7 @@ pub fn run(cfg: &BenchConfig, progress: &mut dyn FnMut(&str)) -> Result<BenchRep
                     cfg.reps,
                     cfg.min_seconds,
                     cfg.max_bytes,
+                    cfg.isa,
                 )?);
             }
         }
