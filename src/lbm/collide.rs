@@ -123,21 +123,35 @@ fn cdot<const I: usize>(x: f32, y: f32, z: f32) -> f32 {
     s
 }
 
-/// Per-block values every pair needs.
+/// Per-block values the pairs share; the `[_; 2]` ones are for the two weights of the moving
+/// directions (1/18 faces, 1/36 edges).
 struct BlockState {
-    rho_m1: Lanes,
-    rho: Lanes,
     u: [Lanes; 3],
-    /// ½ k1 u² (k1 = 1/c_s²).
+    /// w (ρ − 1).
+    w_rho_m1: [Lanes; 2],
+    /// w ρ.
+    w_rho: [Lanes; 2],
+    /// ω⁻ k1 w ρ (k1 = 1/c_s²): ω⁻ times the antisymmetric equilibrium per unit c·u.
+    om_m_k1_w_rho: [Lanes; 2],
+    /// ½ k1 u².
     half_k1_usq: Lanes,
-    /// k1 u·g.
-    k1_ug: Lanes,
+    /// (1 − ω⁺/2) w k1 u·g: the velocity part of the symmetric source.
+    fp_w_k1_ug: [Lanes; 2],
 }
 
-/// Relaxes pair `I` (direction I and its opposite I + 9) in all lanes.
+/// Index into the per-weight arrays of [`BlockState`].
+const fn weight_class(i: usize) -> usize {
+    if i <= 3 { 0 } else { 1 }
+}
+
+/// Relaxes pair `I` (direction I and its opposite I + 9) in all lanes:
+/// f_I ← f_I + P + M, f_Ī ← f_Ī + P − M with
+/// P = −ω⁺(d⁺ − e⁺) + s⁺ and M = −ω⁻(d⁻ − e⁻) + s⁻, d± = ½(f_I ± f_Ī), the same formulas as
+/// [`collide`] with the products that do not depend on the direction hoisted out.
 #[inline(always)]
 fn relax_pair<const I: usize>(d: &mut [Lanes; Q], s: &BlockState, c: &CollideConsts) {
     let o = I + PAIRS;
+    let wc = weight_class(I);
     let k1 = (1.0 / CS2) as f32;
     let w = WF[I];
     let fp = 1.0 - 0.5 * c.om_p;
@@ -145,20 +159,19 @@ fn relax_pair<const I: usize>(d: &mut [Lanes; Q], s: &BlockState, c: &CollideCon
     let cg = cdot::<I>(c.g[0], c.g[1], c.g[2]);
     let src_m = fm * w * k1 * cg;
     let half_k1k1 = 0.5 * k1 * k1;
-    let k1k1_cg = k1 * k1 * cg;
+    let fp_w_k1k1_cg = fp * w * k1 * k1 * cg;
+    let half_om_p = 0.5 * c.om_p;
+    let half_om_m = 0.5 * c.om_m;
     for l in 0..LANES {
         let cu = cdot::<I>(s.u[0][l], s.u[1][l], s.u[2][l]);
-        let eq_p = w * (s.rho_m1[l] + s.rho[l] * (half_k1k1 * cu * cu - s.half_k1_usq[l]));
-        let eq_m = w * s.rho[l] * k1 * cu;
-        let src_p = fp * w * (k1k1_cg * cu - s.k1_ug[l]);
+        let eq_p = s.w_rho_m1[wc][l] + s.w_rho[wc][l] * (half_k1k1 * cu * cu - s.half_k1_usq[l]);
+        let src_p = fp_w_k1k1_cg * cu - s.fp_w_k1_ug[wc][l];
         let di = d[I][l];
         let dq = d[o][l];
-        let dp = 0.5 * (di + dq);
-        let dm = 0.5 * (di - dq);
-        let a = c.om_p * (dp - eq_p);
-        let b = c.om_m * (dm - eq_m);
-        d[I][l] = di + (-a - b + src_p + src_m);
-        d[o][l] = dq + (-a + b + src_p - src_m);
+        let p = c.om_p * eq_p - half_om_p * (di + dq) + src_p;
+        let m = s.om_m_k1_w_rho[wc][l] * cu - half_om_m * (di - dq) + src_m;
+        d[I][l] = di + (p + m);
+        d[o][l] = dq + (p - m);
     }
 }
 
@@ -184,24 +197,31 @@ pub fn collide_lanes(d: &mut [Lanes; Q], c: &CollideConsts) -> [Lanes; 3] {
     let k1 = (1.0 / CS2) as f32;
     let fp = 1.0 - 0.5 * c.om_p;
     let mut s = BlockState {
-        rho_m1,
-        rho: [0.0; LANES],
         u: [[0.0; LANES]; 3],
+        w_rho_m1: [[0.0; LANES]; 2],
+        w_rho: [[0.0; LANES]; 2],
+        om_m_k1_w_rho: [[0.0; LANES]; 2],
         half_k1_usq: [0.0; LANES],
-        k1_ug: [0.0; LANES],
+        fp_w_k1_ug: [[0.0; LANES]; 2],
     };
+    let ws = [WF[1], WF[4]];
     for l in 0..LANES {
-        s.rho[l] = 1.0 + rho_m1[l];
-        let inv = 1.0 / s.rho[l];
+        let rho = 1.0 + rho_m1[l];
+        let inv = 1.0 / rho;
         for a in 0..3 {
             s.u[a][l] = (j[a][l] + 0.5 * c.g[a]) * inv;
         }
         let usq = s.u[0][l] * s.u[0][l] + s.u[1][l] * s.u[1][l] + s.u[2][l] * s.u[2][l];
         let ug = s.u[0][l] * c.g[0] + s.u[1][l] * c.g[1] + s.u[2][l] * c.g[2];
         s.half_k1_usq[l] = 0.5 * k1 * usq;
-        s.k1_ug[l] = k1 * ug;
-        let eq0 = WF[0] * (rho_m1[l] - s.rho[l] * s.half_k1_usq[l]);
-        d[0][l] += -c.om_p * (d[0][l] - eq0) - fp * WF[0] * s.k1_ug[l];
+        for (wc, &w) in ws.iter().enumerate() {
+            s.w_rho_m1[wc][l] = w * rho_m1[l];
+            s.w_rho[wc][l] = w * rho;
+            s.om_m_k1_w_rho[wc][l] = c.om_m * k1 * w * rho;
+            s.fp_w_k1_ug[wc][l] = fp * w * k1 * ug;
+        }
+        let eq0 = WF[0] * (rho_m1[l] - rho * s.half_k1_usq[l]);
+        d[0][l] += -c.om_p * (d[0][l] - eq0) - fp * WF[0] * k1 * ug;
     }
     relax_pair::<1>(d, &s, c);
     relax_pair::<2>(d, &s, c);
