@@ -30,6 +30,7 @@ enum Command {
 
 /// Runs the command line and returns the process exit code.
 pub fn main() -> i32 {
+    voxperm::lbm::memory::return_large_blocks_promptly();
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {

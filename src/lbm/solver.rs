@@ -327,8 +327,8 @@ pub fn solve(
     let wall = started.elapsed().as_secs_f64();
     progress.on_finish();
     // The loop always stops after a completed step pair (window and cap are even).
-    let (density, velocity) = lattice.macroscopic(&params);
     let steps = lattice.steps;
+    let (density, velocity) = lattice.into_macroscopic(&params);
     Ok(FlowField {
         density,
         velocity,
