@@ -4,9 +4,11 @@
 pub mod estimate;
 pub mod flow;
 pub mod kozeny;
+pub mod run;
 pub mod tensor;
 pub mod units;
 
 pub use estimate::{AxisEstimate, Estimate, EstimateConfig, KeptField, estimate, estimate_axis};
 pub use flow::{AxisFlow, analyse};
+pub use run::{RunConfig, VtkRequest, run_sample};
 pub use tensor::{TensorAnalysis, analyse_tensor};

@@ -2,10 +2,14 @@
 //! mapping from library errors to one-line messages and exit codes. No physics lives here.
 
 mod args;
+mod batch;
+mod batch_plan;
+mod batch_progress;
 mod bench;
 mod describe;
 mod estimate;
 mod progress;
+mod report;
 
 use clap::{Parser, Subcommand};
 use voxperm::error::exit;
@@ -24,6 +28,16 @@ enum Command {
     Estimate(estimate::EstimateArgs),
     /// Geometry only: porosity, connectivity, surface, Kozeny–Carman, memory a solve needs.
     Describe(describe::DescribeArgs),
+    /// Many samples from a manifest or a folder: one result file each, a summary table, resumable.
+    ///
+    /// Samples run one after another, each solve on all cores: a lattice-Boltzmann solve is
+    /// limited by memory bandwidth, which one solve already uses up, so side-by-side solves would
+    /// not finish sooner and would need more memory. A rerun into the same --out folder skips
+    /// samples whose input file and settings are unchanged. Exit code 5 when some samples failed.
+    /// The manifest format is described in docs/batch-manifest.md.
+    Batch(batch::BatchArgs),
+    /// Comparison report (HTML and/or Markdown with SVG plots) over result files.
+    Report(report::ReportArgs),
     /// Kernel speed against measured memory bandwidth (the roofline), on generated structures.
     Bench(bench::BenchArgs),
 }
@@ -46,6 +60,8 @@ pub fn main() -> i32 {
     let result = match cli.command {
         Command::Estimate(a) => estimate::run(a),
         Command::Describe(a) => describe::run(a),
+        Command::Batch(a) => batch::run(a),
+        Command::Report(a) => report::run(a),
         Command::Bench(a) => bench::run_cmd(a),
     };
     match result {

@@ -1,0 +1,242 @@
+//! One sample from file to result: load and segment, refuse unusable masks, measure the geometry,
+//! solve, collect the warnings a user should read, and assemble the result record.
+//!
+//! `voxperm estimate` and every sample of `voxperm batch` go through [`run_sample`], so a single
+//! run and a batch entry with the same settings give the same result file.
+
+use super::kozeny::{KOZENY_CONSTANT, kozeny_carman_from_surface};
+use super::units::{lattice_to_m2, m2_to_md};
+use super::{Estimate, EstimateConfig, estimate};
+use crate::geometry::surface::{Surface, measure_surface};
+use crate::geometry::{Axis, PoreMask};
+use crate::lbm::{BoundaryMode, Progress, SolverSettings};
+use crate::report::json::GeometryRecord;
+use crate::report::result::SampleResult;
+use crate::report::snapshot::FlowSnapshot;
+use crate::report::vtk::write_vti_with_limit;
+use crate::report::{EstimateReport, InputRecord, Settings};
+use crate::volume::sample::{Sample, SampleSpec, input_sha256, load_sample};
+use crate::volume::{CropSpec, ReadLimits};
+use crate::{Error, Result};
+
+/// Everything about a run that is not the sample itself.
+#[derive(Debug, Clone)]
+pub struct RunConfig {
+    /// Flow axes; all three also give the tensor.
+    pub axes: Vec<Axis>,
+    pub mode: BoundaryMode,
+    pub solver: SolverSettings,
+    /// Memory the run may use (reading and solving), bytes.
+    pub max_memory_bytes: u64,
+    /// Worker threads of the pool the run builds for itself.
+    pub threads: usize,
+    /// Keep the first axis's flow field long enough to record a [`FlowSnapshot`].
+    pub flow_snapshot: bool,
+    /// Write the first axis's flow field as VTK image data.
+    pub vtk: Option<VtkRequest>,
+}
+
+/// Where and how to write the flow field for a viewer.
+#[derive(Debug, Clone)]
+pub struct VtkRequest {
+    pub path: std::path::PathBuf,
+    /// Keep every `stride`-th voxel along each axis.
+    pub stride: usize,
+}
+
+/// Pore space a solve cannot use is refused before solving, naming the file and the rule.
+fn check_mask(mask: &PoreMask, spec: &SampleSpec) -> Result<()> {
+    let seg = &spec.segmentation;
+    let msg = match mask.pore_count() {
+        0 => format!("no pore voxels ({seg}); check --pore-label or --threshold"),
+        n if n == mask.len() => format!(
+            "every voxel is pore ({seg}), nothing to resist the flow; check --pore-label or --threshold"
+        ),
+        _ => return Ok(()),
+    };
+    Err(Error::bad_input(&spec.path, msg))
+}
+
+/// Loads, checks, solves and reports one sample. Builds a pool of `cfg.threads` workers for
+/// the whole run. Never prints: progress goes to `progress`, advice into the report's warnings.
+pub fn run_sample(
+    spec: &SampleSpec,
+    cfg: &RunConfig,
+    progress: &mut (dyn Progress + Send),
+) -> Result<SampleResult> {
+    let mut warnings = cfg.solver.validate()?;
+    let threads = cfg.threads.max(1);
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(|e| Error::Internal(format!("cannot start {threads} worker threads: {e}")))?;
+    pool.install(|| {
+        let sample = load_sample(spec, &ReadLimits::new(cfg.max_memory_bytes))?;
+        check_mask(&sample.mask, spec)?;
+        let voxel_m = sample.voxel_size.as_ref().map(|v| v.metres);
+        if voxel_m.is_none() {
+            warnings.push("no voxel size given or found in the file: permeability in voxel² only (use --voxel-size)".into());
+        }
+        // Faces across the grid boundary count only for a fully periodic cell (as in `describe`).
+        let surface = measure_surface(&sample.mask, [cfg.mode == BoundaryMode::PERIODIC; 3]);
+        let porosity = sample.mask.porosity();
+        let geometry = geometry_record(porosity, &surface, voxel_m);
+
+        let est_cfg = EstimateConfig {
+            axes: cfg.axes.clone(),
+            mode: cfg.mode,
+            solver: cfg.solver.clone(),
+            max_memory_bytes: cfg.max_memory_bytes,
+            voxel_size_m: voxel_m,
+        };
+        let fits = snapshot_fits(&sample.mask, cfg);
+        if cfg.vtk.is_some() && !fits {
+            return Err(Error::Usage("--vtk with several axes would keep the first flow field while the others solve, beyond --max-memory; solve one axis or raise --max-memory".into()));
+        }
+        let keep = (cfg.flow_snapshot || cfg.vtk.is_some()) && fits;
+        if cfg.flow_snapshot && !keep {
+            warnings.push("no flow snapshot: keeping the first flow field while the other axes solve would exceed --max-memory".into());
+        }
+        let (est, kept) = estimate(&sample.mask, &est_cfg, progress, keep)?;
+        if let (Some(v), Some(k)) = (&cfg.vtk, &kept) {
+            write_vti_with_limit(&v.path, k, voxel_m, v.stride, cfg.max_memory_bytes)?;
+        }
+        let flow_snapshot = kept
+            .as_ref()
+            .filter(|_| cfg.flow_snapshot)
+            .map(FlowSnapshot::from_field);
+        drop(kept);
+
+        warnings.extend(solve_warnings(&est, porosity, &surface));
+        let report = EstimateReport::new(
+            &est,
+            input_record(spec, &sample)?,
+            settings(cfg, threads),
+            Some(geometry),
+            voxel_m,
+            warnings,
+        );
+        Ok(SampleResult {
+            name: None,
+            batch_key: None,
+            report,
+            flow_snapshot,
+        })
+    })
+}
+
+/// Keeping the first field costs its node map, coordinates, velocity and density (4 B per grid
+/// voxel, 22 B per fluid node) during the later solves; with one axis nothing is kept longer
+/// than the solve itself. Bounds from the mask, before any domain exists.
+fn snapshot_fits(mask: &PoreMask, cfg: &RunConfig) -> bool {
+    if cfg.axes.len() <= 1 {
+        return true;
+    }
+    let grid = crate::lbm::Domain::grid_shape(mask.shape(), cfg.axes[0], cfg.mode);
+    let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
+    let kept = grid_voxels.saturating_mul(4 + 22);
+    let solve = crate::lbm::memory::solve_peak_bytes(mask.len() as u64, grid_voxels, grid_voxels);
+    kept.saturating_add(solve) <= cfg.max_memory_bytes
+}
+
+fn geometry_record(porosity: f64, s: &Surface, voxel_m: Option<f64>) -> GeometryRecord {
+    let kc = kozeny_carman_from_surface(porosity, s.specific_surface, KOZENY_CONSTANT);
+    let kc_m2 = kc.zip(voxel_m).map(|(k, dx)| lattice_to_m2(k, dx));
+    GeometryRecord {
+        specific_surface_per_voxel: s.specific_surface,
+        specific_surface_per_m: voxel_m.map(|dx| s.specific_surface / dx),
+        surface_estimator: s.estimator.to_string(),
+        kozeny_carman_lattice: kc,
+        kozeny_carman_m2: kc_m2,
+        kozeny_carman_md: kc_m2.map(m2_to_md),
+        kozeny_constant_assumed: KOZENY_CONSTANT,
+    }
+}
+
+/// Advice that depends on the solve: flow regime, convergence, connectivity, resolution.
+fn solve_warnings(est: &Estimate, porosity: f64, surface: &Surface) -> Vec<String> {
+    let mut warnings = Vec::new();
+    for ax in &est.axes {
+        if let Some(f) = ax.flow.as_ref().filter(|f| f.reynolds > 0.1) {
+            warnings.push(format!(
+                "axis {}: Reynolds number {:.2} is not small; Darcy's law assumes creeping flow (lower --force)",
+                ax.axis, f.reynolds
+            ));
+        }
+        if !ax.converged {
+            warnings.push(format!(
+                "axis {}: did not converge; the value is not final",
+                ax.axis
+            ));
+        }
+        if ax.percolates && ax.connected_porosity < 0.5 * porosity {
+            warnings.push(format!(
+                "axis {}: only {:.0}% of the pore space connects the faces; the sample may be near its percolation limit",
+                ax.axis,
+                100.0 * ax.connected_porosity / porosity
+            ));
+        }
+    }
+    let dh = 4.0 * porosity / (surface.face_area_per_bulk.max(f64::MIN_POSITIVE));
+    if dh < 6.0 {
+        // Common practice: about ten voxels across a pore for a few-% permeability error.
+        warnings.push(format!(
+            "pores are resolved by only about {dh:.1} voxels (hydraulic diameter); expect a resolution error of several % or more"
+        ));
+    }
+    warnings
+}
+
+fn settings(cfg: &RunConfig, threads: usize) -> Settings {
+    Settings {
+        lattice: "D3Q19",
+        tau_minus: cfg.solver.tau_minus(),
+        viscosity_lattice: cfg.solver.viscosity(),
+        solver: cfg.solver.clone(),
+        boundary: cfg.mode,
+        sides: cfg.mode.sides.to_string(),
+        ends: cfg.mode.ends.to_string(),
+        threads,
+        max_memory_bytes: cfg.max_memory_bytes,
+        connectivity: "pore clusters along D3Q19 links; only clusters spanning inlet to outlet are solved",
+    }
+}
+
+/// The crop box in the option's own syntax, e.g. ":,10:50,:".
+pub fn crop_text(c: &CropSpec) -> String {
+    let side = |(a, b): (Option<usize>, Option<usize>)| {
+        let n = |v: Option<usize>| v.map_or(String::new(), |v| v.to_string());
+        format!("{}:{}", n(a), n(b))
+    };
+    c.bounds.map(side).join(",")
+}
+
+fn input_record(spec: &SampleSpec, s: &Sample) -> Result<InputRecord> {
+    Ok(InputRecord {
+        path: spec.path.display().to_string(),
+        sha256: input_sha256(&spec.path)?,
+        file_shape: s.file_shape,
+        shape: s.mask.shape(),
+        sample_type: s.sample_type.clone(),
+        segmentation: spec.segmentation.to_string(),
+        crop: spec.crop.as_ref().map(crop_text),
+        voxel_size_source: s
+            .voxel_size
+            .as_ref()
+            .map_or("none: give --voxel-size for physical units".into(), |v| {
+                v.describe()
+            }),
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn crop_text_round_trips() {
+        for s in [":,10:50,:", "0:4,:8,3:"] {
+            assert_eq!(crop_text(&CropSpec::parse(s).unwrap()), s);
+        }
+    }
+}

@@ -1,0 +1,459 @@
+//! The content of a comparison report, independent of its format: the comparison table, the
+//! plots (as SVG text), the methods text built from the settings actually recorded, and the
+//! cautions. `html.rs` and `markdown.rs` only lay this out.
+
+use super::json::CAUTION;
+use super::plots::{self, PermeabilityPorosity};
+use super::result::ResultView;
+use crate::analysis::kozeny::kozeny_carman_spheres;
+use crate::analysis::units::m2_to_md;
+use crate::geometry::Axis;
+use crate::{Error, Result};
+use std::collections::BTreeMap;
+
+/// A finished sample to report.
+pub struct Entry {
+    pub name: String,
+    pub result: ResultView,
+}
+
+/// A plot: a short file-name-safe id, a caption and the SVG text.
+pub struct Plot {
+    pub id: String,
+    pub caption: String,
+    pub svg: String,
+}
+
+/// A table whose cells may hold several lines (e.g. one per flow axis).
+pub struct Table {
+    pub headers: Vec<String>,
+    pub rows: Vec<Vec<Vec<String>>>,
+    /// Whether the columns after the first hold numbers (aligned right).
+    pub numeric: bool,
+}
+
+/// Per-sample material: flow plots and the run's warnings.
+pub struct SampleSection {
+    pub name: String,
+    pub plots: Vec<Plot>,
+    pub warnings: Vec<String>,
+}
+
+/// Everything the report says.
+pub struct Document {
+    pub title: String,
+    pub comparison: Table,
+    pub table_notes: Vec<String>,
+    /// (sample, one-line error) of samples that did not finish.
+    pub failed: Vec<(String, String)>,
+    pub plots: Vec<Plot>,
+    pub samples: Vec<SampleSection>,
+    pub inputs: Table,
+    /// Paragraphs, one per group of samples sharing the same settings.
+    pub methods: Vec<String>,
+    pub cautions: Vec<String>,
+}
+
+/// Four significant figures, scientific outside 0.01–99 999.
+pub fn num(v: f64) -> String {
+    let a = v.abs();
+    if v == 0.0 {
+        "0".into()
+    } else if !v.is_finite() {
+        "–".into()
+    } else if (0.01..1e5).contains(&a) {
+        let decimals = (3 - a.log10().floor() as i32).max(0) as usize;
+        format!("{v:.decimals$}")
+    } else {
+        format!("{v:.3e}")
+    }
+}
+
+fn opt(v: Option<f64>) -> String {
+    v.map_or("–".into(), num)
+}
+
+/// "x 1.234" lines for each solved axis.
+fn per_axis(r: &ResultView, f: impl Fn(Axis) -> Option<f64>) -> Vec<String> {
+    r.axes
+        .iter()
+        .map(|a| format!("{} {}", a.axis, opt(f(a.axis))))
+        .collect()
+}
+
+/// Builds the report; `failed` lists samples that have no result.
+pub fn build(title: &str, entries: &[Entry], failed: Vec<(String, String)>) -> Result<Document> {
+    if entries.is_empty() && failed.is_empty() {
+        return Err(Error::Usage("no results to report".into()));
+    }
+    let (plots, mut table_notes) = comparison_plots(entries)?;
+    table_notes.insert(0, "Permeability in mD (1 mD = 9.869233e-16 m²) and m² where the voxel size is known, else in voxel². Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; under about ten voxels expect a resolution error (common practice).".into());
+    Ok(Document {
+        title: title.to_string(),
+        comparison: comparison_table(entries),
+        table_notes,
+        failed,
+        plots,
+        samples: entries.iter().map(sample_section).collect::<Result<_>>()?,
+        inputs: inputs_table(entries),
+        methods: methods(entries),
+        cautions: cautions(entries),
+    })
+}
+
+fn comparison_table(entries: &[Entry]) -> Table {
+    let headers = [
+        "sample",
+        "porosity total (–)",
+        "porosity connected (–)",
+        "k (mD)",
+        "k (m²)",
+        "k (voxel²)",
+        "anisotropy (–)",
+        "tortuosity (–)",
+        "specific surface S (1/m)",
+        "Kozeny–Carman k (mD)",
+        "implied Kozeny constant (–)",
+        "pore diameter (voxels)",
+        "converged (steps)",
+    ];
+    let rows = entries
+        .iter()
+        .map(|e| {
+            let r = &e.result;
+            let g = r.geometry.as_ref();
+            let ax = |a: Axis| r.axis(a);
+            vec![
+                vec![e.name.clone()],
+                vec![num(r.porosity)],
+                per_axis(r, |a| ax(a).map(|v| v.connected_porosity)),
+                per_axis(r, |a| ax(a).and_then(|v| v.permeability_md)),
+                per_axis(r, |a| ax(a).and_then(|v| v.permeability_m2)),
+                per_axis(r, |a| ax(a).map(|v| v.permeability_lattice)),
+                vec![
+                    r.anisotropy()
+                        .map_or("–".into(), |(v, how)| format!("{} ({how})", num(v))),
+                ],
+                per_axis(r, |a| ax(a).and_then(|v| v.flow.as_ref()?.tortuosity)),
+                vec![opt(g.and_then(|g| g.specific_surface_per_m))],
+                vec![opt(g.and_then(|g| g.kozeny_carman_md))],
+                per_axis(r, |a| r.implied_kozeny(a)),
+                vec![opt(r.pore_diameter_voxels())],
+                vec![format!(
+                    "{} ({})",
+                    if r.converged { "yes" } else { "NO" },
+                    r.steps
+                )],
+            ]
+        })
+        .collect();
+    Table {
+        headers: headers.map(String::from).to_vec(),
+        rows,
+        numeric: true,
+    }
+}
+
+/// k in the report's unit: mD when every sample has a voxel size, else voxel² when none has.
+fn k_unit(entries: &[Entry]) -> (&'static str, bool) {
+    if entries.iter().all(|e| e.result.voxel_size_m.is_some()) {
+        ("mD", true)
+    } else {
+        ("voxel²", false)
+    }
+}
+
+fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
+    let mut notes = Vec::new();
+    let (unit, physical) = k_unit(entries);
+    if !physical && entries.iter().any(|e| e.result.voxel_size_m.is_some()) {
+        notes
+            .push("Some samples have no voxel size, so the plots show k in voxel² for all.".into());
+    }
+    let k_of = |e: &Entry, a: Axis| -> Option<f64> {
+        let v = e.result.axis(a)?;
+        if physical {
+            v.permeability_md
+        } else {
+            Some(v.permeability_lattice)
+        }
+    };
+    let mut pp = PermeabilityPorosity {
+        simulated: [vec![], vec![], vec![]],
+        kozeny_carman: vec![],
+        curves: vec![],
+        unit: unit.into(),
+    };
+    let mut tort = [vec![], vec![], vec![]];
+    let mut bars = Vec::new();
+    let mut grains = Vec::new();
+    for e in entries {
+        let r = &e.result;
+        let phi = r.porosity;
+        for a in Axis::ALL {
+            if let Some(k) = k_of(e, a).filter(|k| *k > 0.0) {
+                pp.simulated[a.index()].push((phi, k));
+            }
+            if let Some(t) = r.axis(a).and_then(|v| v.flow.as_ref()?.tortuosity) {
+                tort[a.index()].push((phi, t));
+            }
+        }
+        bars.push(Axis::ALL.map(|a| k_of(e, a)));
+        let g = r.geometry.as_ref();
+        let kc = if physical {
+            g.and_then(|g| g.kozeny_carman_md)
+        } else {
+            g.and_then(|g| g.kozeny_carman_lattice)
+        };
+        if let Some(kc) = kc.filter(|k| *k > 0.0) {
+            pp.kozeny_carman.push((phi, kc));
+        }
+        // Grain diameter of a sphere bed with the same φ and S: d = 6(1 − φ)/S (geometry).
+        if let Some(s) = g.map(|g| g.specific_surface_per_voxel).filter(|s| *s > 0.0) {
+            let dx = if physical { r.voxel_size_m } else { Some(1.0) };
+            grains.extend(dx.map(|dx| 6.0 * (1.0 - phi) / s * dx));
+        }
+    }
+    let mut plots = Vec::new();
+    if !grains.is_empty() {
+        grains.sort_by(f64::total_cmp);
+        let d = grains[grains.len() / 2];
+        for f in [0.5, 1.0, 2.0] {
+            let dd = d * f;
+            let curve = (1..100)
+                .filter_map(|i| {
+                    let phi = i as f64 / 100.0;
+                    let k = kozeny_carman_spheres(phi, dd)?;
+                    let k = if physical { m2_to_md(k) } else { k };
+                    Some((phi, k))
+                })
+                .collect();
+            let size = match physical {
+                true if dd < 1e-3 => format!("{} µm", num(dd * 1e6)),
+                true => format!("{} mm", num(dd * 1e3)),
+                false => format!("{} voxels", num(dd)),
+            };
+            pp.curves
+                .push((format!("Carman sphere pack, d = {size}"), curve));
+        }
+        notes.push("Curves: Carman (1937) sphere-pack form k = d²φ³/(180(1−φ)²) for half, once and twice the median equivalent grain diameter d = 6(1−φ)/S of the samples.".into());
+    }
+    if pp.simulated.iter().any(|v| !v.is_empty()) {
+        plots.push(Plot {
+            id: "permeability-porosity".into(),
+            caption: format!("Simulated permeability ({unit}, log scale) against porosity, with Kozeny–Carman estimates."),
+            svg: plots::permeability_porosity(&pp)?,
+        });
+        let names: Vec<String> = entries.iter().map(|e| e.name.clone()).collect();
+        plots.push(Plot {
+            id: "permeability-bars".into(),
+            caption: format!("Permeability per sample and flow axis ({unit}, log scale); blocked axes (k = 0) have no bar."),
+            svg: plots::permeability_bars(&names, &bars, unit)?,
+        });
+    }
+    if tort.iter().any(|v| !v.is_empty()) {
+        plots.push(Plot {
+            id: "tortuosity-porosity".into(),
+            caption: "Hydraulic tortuosity (Koponen, Kataja & Timonen 1996) against porosity."
+                .into(),
+            svg: plots::tortuosity_porosity(&tort)?,
+        });
+    }
+    Ok((plots, notes))
+}
+
+/// A name fit for a file name: letters, digits, '-' and '_'.
+pub fn file_id(name: &str) -> String {
+    name.chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '-'
+            }
+        })
+        .collect()
+}
+
+fn sample_section(e: &Entry) -> Result<SampleSection> {
+    let mut plots = Vec::new();
+    if let Some(s) = &e.result.flow_snapshot {
+        let id = file_id(&e.name);
+        plots.push(Plot {
+            id: format!("{id}-speed-histogram"),
+            caption: format!(
+                "{}: distribution of local speeds over {} fluid nodes, flow along {}.",
+                e.name, s.fluid_nodes, s.axis
+            ),
+            svg: plots::speed_histogram(
+                &s.histogram,
+                &format!("{}: speeds, flow along {}", e.name, s.axis),
+            )?,
+        });
+        let m = &s.mid_plane;
+        plots.push(Plot {
+            id: format!("{id}-speed-map"),
+            caption: format!("{}: speed in the cross-section {} = {} (mid-length), flow along {}; grey: solid; blocks of {}×{} voxels.", e.name, s.axis, m.plane_index, s.axis, m.block, m.block),
+            svg: plots::speed_map(m, e.result.voxel_size_m, &format!("{}: speed at {} = {}", e.name, s.axis, m.plane_index))?,
+        });
+    }
+    Ok(SampleSection {
+        name: e.name.clone(),
+        plots,
+        warnings: e.result.warnings.clone(),
+    })
+}
+
+fn inputs_table(entries: &[Entry]) -> Table {
+    let headers = [
+        "sample",
+        "file",
+        "shape (voxels)",
+        "segmentation",
+        "crop",
+        "voxel size",
+    ];
+    let rows = entries
+        .iter()
+        .map(|e| {
+            let i = &e.result.input;
+            let [nx, ny, nz] = i.shape;
+            [
+                e.name.clone(),
+                i.path.clone(),
+                format!("{nx}×{ny}×{nz}"),
+                i.segmentation.clone(),
+                i.crop.clone().unwrap_or_else(|| "none".into()),
+                i.voxel_size_source.clone(),
+            ]
+            .map(|c| vec![c])
+            .to_vec()
+        })
+        .collect();
+    Table {
+        headers: headers.map(String::from).to_vec(),
+        rows,
+        numeric: false,
+    }
+}
+
+/// One paragraph per group of samples with equal settings.
+fn methods(entries: &[Entry]) -> Vec<String> {
+    let mut groups: BTreeMap<String, Vec<&Entry>> = BTreeMap::new();
+    for e in entries {
+        groups.entry(method_text(&e.result)).or_default().push(e);
+    }
+    let mut out = vec!["Permeability was computed by simulating steady, slow (Stokes) flow through the pore space of each segmented image and applying Darcy's law, k = ν⟨u⟩/g, with ⟨u⟩ the superficial velocity (mean over the whole sample, solid counted as zero), ν the lattice viscosity and g the body force. Hydraulic tortuosity is Σ|u|/Σu_axis over the fluid nodes (Koponen, Kataja & Timonen 1996). Kozeny–Carman estimates use k = φ³/(c_K S²) with c_K = 5 (Carman 1937); the implied Kozeny constant is φ³/(k S²) with the simulated k.".to_string()];
+    for (text, members) in groups {
+        let names: Vec<&str> = members.iter().map(|e| e.name.as_str()).collect();
+        let steps: Vec<usize> = members
+            .iter()
+            .flat_map(|e| e.result.axes.iter().map(|a| a.steps))
+            .filter(|&s| s > 0)
+            .collect();
+        let forces: Vec<f64> = members
+            .iter()
+            .flat_map(|e| e.result.axes.iter().map(|a| a.body_force))
+            .filter(|&g| g > 0.0)
+            .collect();
+        let range = |lo: String, hi: String| {
+            if lo == hi {
+                lo
+            } else {
+                format!("{lo} to {hi}")
+            }
+        };
+        let used_steps = match (steps.iter().min(), steps.iter().max()) {
+            (Some(a), Some(b)) => format!(" Steps used: {}.", range(a.to_string(), b.to_string())),
+            _ => String::new(),
+        };
+        let used_force = if forces.is_empty() {
+            String::new()
+        } else {
+            let lo = forces.iter().copied().fold(f64::INFINITY, f64::min);
+            let hi = forces.iter().copied().fold(0.0, f64::max);
+            format!(
+                " Body force applied: {} lattice units.",
+                range(format!("{lo:.3e}"), format!("{hi:.3e}"))
+            )
+        };
+        out.push(format!(
+            "{}: {text}{used_steps}{used_force}",
+            names.join(", ")
+        ));
+    }
+    out
+}
+
+/// The settings of one result in words; equal text means equal settings.
+fn method_text(r: &ResultView) -> String {
+    let s = &r.settings;
+    let v = &s.solver;
+    let collision = match v.collision.as_str() {
+        "trt" => format!(
+            "two-relaxation-time (TRT) collision, τ⁺ = {}, τ⁻ = {:.4}, magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½) = {}",
+            v.tau, s.tau_minus, v.magic
+        ),
+        _ => format!("single-relaxation-time (BGK) collision, τ = {}", v.tau),
+    };
+    let force = match v.force {
+        Some(g) => format!("a body force g = {g:e} (lattice units) given by the user"),
+        None => format!(
+            "a body force chosen from the pore size so that the flow stays slow (target peak speed {} lattice units, Reynolds number below {})",
+            v.target_speed.map_or("–".into(), |u| format!("{u:e}")),
+            crate::lbm::solver::TARGET_REYNOLDS
+        ),
+    };
+    let axes: Vec<String> = r.axes.iter().map(|a| a.axis.to_string()).collect();
+    format!(
+        "Lattice {} (19 velocities) with {collision}, lattice viscosity ν = {:.4}, driven by {force}, half-way bounce-back at pore walls. Sample faces: sides {}, ends {}. Flow along {}. Steady when the relative change of the mean velocity per step stayed below {:e} over two check windows of {} steps, at most {} steps. Connectivity: {}.",
+        s.lattice,
+        s.viscosity_lattice,
+        s.sides,
+        s.ends,
+        axes.join(", "),
+        v.tolerance,
+        v.check_every,
+        v.max_steps,
+        s.connectivity
+    )
+}
+
+fn cautions(entries: &[Entry]) -> Vec<String> {
+    let mut out = vec![
+        CAUTION.to_string(),
+        "The image is a small piece of the material: permeability of heterogeneous materials changes with the size and location of the sample, and a representative volume must be shown, not assumed.".into(),
+    ];
+    let unconverged: Vec<&str> = entries
+        .iter()
+        .filter(|e| !e.result.converged)
+        .map(|e| e.name.as_str())
+        .collect();
+    if !unconverged.is_empty() {
+        out.push(format!(
+            "Not converged (values not final): {}.",
+            unconverged.join(", ")
+        ));
+    }
+    let coarse: Vec<String> = entries
+        .iter()
+        .filter_map(|e| {
+            e.result
+                .pore_diameter_voxels()
+                .filter(|d| *d < 10.0)
+                .map(|d| format!("{} ({} voxels)", e.name, num(d)))
+        })
+        .collect();
+    if !coarse.is_empty() {
+        out.push(format!("Pores resolved by fewer than about ten voxels (common practice for a few-% error), so expect resolution errors: {}.", coarse.join(", ")));
+    }
+    let periodic: Vec<&str> = entries
+        .iter()
+        .filter(|e| e.result.settings.ends == "periodic")
+        .map(|e| e.name.as_str())
+        .collect();
+    if !periodic.is_empty() {
+        out.push(format!("Periodic ends assume the structure repeats along the flow axis, which holds for generated unit cells but not for scans: {}.", periodic.join(", ")));
+    }
+    out
+}

@@ -1,0 +1,467 @@
+//! `voxperm batch` and `voxperm report` end to end: the real binary on small periodic volumes
+//! generated in a temporary folder (sphere cells and slits, 16³ or smaller), solved with a
+//! loose tolerance to stay fast.
+mod common;
+use assert_cmd::Command;
+use common::{slit, sphere_cell};
+use std::path::{Path, PathBuf};
+use std::time::{Duration, Instant, SystemTime};
+use voxperm::geometry::{Axis, PoreMask};
+use voxperm::volume::{TiffCompression, Volume, write_tiff_stack};
+
+fn voxperm() -> Command {
+    Command::cargo_bin("voxperm").expect("binary")
+}
+
+fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
+    let p = dir.join(name);
+    write_tiff_stack(
+        &p,
+        &Volume::from_mask(mask, 0, 255),
+        TiffCompression::None,
+        None,
+    )
+    .expect("write");
+    p
+}
+
+/// Runs voxperm in `cwd` and returns (exit code, stdout, stderr).
+fn run_in(cwd: &Path, args: &[&str]) -> (i32, String, String) {
+    let out = voxperm().current_dir(cwd).args(args).output().expect("run");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into(),
+        String::from_utf8_lossy(&out.stderr).into(),
+    )
+}
+
+const FAST: [&str; 5] = ["--periodic", "--tolerance", "1e-5", "--voxel-size", "2um"];
+
+fn batch(cwd: &Path, source: &str, out: &str, extra: &[&str]) -> (i32, String, String) {
+    let mut args = vec!["batch", source, "--out", out];
+    args.extend_from_slice(&FAST);
+    args.extend_from_slice(extra);
+    run_in(cwd, &args)
+}
+
+fn json(path: &Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(path).expect("read")).expect("json")
+}
+
+fn mtime(p: &Path) -> SystemTime {
+    std::fs::metadata(p).unwrap().modified().unwrap()
+}
+
+/// Three good samples and a corrupt one, in a folder.
+fn sample_folder(dir: &Path) -> PathBuf {
+    let s = dir.join("scans");
+    std::fs::create_dir(&s).unwrap();
+    write_mask(&s, "a-cell.tif", &sphere_cell(16, 6.0));
+    write_mask(&s, "b-slit.tif", &slit(Axis::Y, 5, 8));
+    write_mask(&s, "c-cell.tif", &sphere_cell(12, 4.0));
+    std::fs::write(s.join("d-corrupt.tif"), b"II*\0 this is not really a TIFF").unwrap();
+    s
+}
+
+#[test]
+fn one_corrupt_file_fails_alone_and_the_summary_loads_with_units() {
+    let dir = tempfile::tempdir().unwrap();
+    sample_folder(dir.path());
+    let (code, stdout, stderr) = batch(dir.path(), "scans", "res", &[]);
+    assert_eq!(code, 5, "partial failure exit code\n{stdout}\n{stderr}");
+    assert!(stderr.contains("[4/4] d-corrupt: failed: "), "{stderr}");
+    let res = dir.path().join("res");
+    for name in ["a-cell", "b-slit", "c-cell"] {
+        let v = json(&res.join(format!("{name}.json")));
+        assert_eq!(v["name"], name);
+        assert_eq!(v["batch_key"].as_str().unwrap().len(), 64);
+        assert!(v["flow_snapshot"]["histogram"]["counts"].is_array());
+    }
+    assert!(!res.join("d-corrupt.json").exists());
+
+    let mut rd = csv::Reader::from_path(res.join("summary.csv")).expect("csv");
+    let headers = rd.headers().unwrap().clone();
+    let col = |h: &str| {
+        headers
+            .iter()
+            .position(|x| x == h)
+            .unwrap_or_else(|| panic!("no column {h}"))
+    };
+    for h in [
+        "permeability_x_mD",
+        "permeability_x_m2",
+        "permeability_x_voxel2",
+        "porosity_total",
+        "porosity_connected_x",
+        "tortuosity_x",
+        "specific_surface_per_m",
+        "kozeny_carman_mD",
+        "kozeny_constant_implied_x",
+        "pore_diameter_voxels",
+        "steps",
+        "converged",
+        "wall_s",
+        "status",
+        "error",
+    ] {
+        col(h);
+    }
+    let rows: Vec<csv::StringRecord> = rd.records().map(|r| r.unwrap()).collect();
+    assert_eq!(rows.len(), 4);
+    let f = |r: &csv::StringRecord, h: &str| -> f64 {
+        r[col(h)]
+            .parse()
+            .unwrap_or_else(|_| panic!("{h} = '{}'", &r[col(h)]))
+    };
+    for r in &rows[..3] {
+        assert_eq!(&r[col("status")], "ok");
+        assert_eq!(&r[col("error")], "");
+        // Unit chain: m² = voxel² × (2 µm)²; 1 mD = 9.869233e-16 m² (NIST SP 811 App. B, from memory).
+        let (md, m2, vox) = (
+            f(r, "permeability_x_mD"),
+            f(r, "permeability_x_m2"),
+            f(r, "permeability_x_voxel2"),
+        );
+        assert!((m2 / (vox * 4e-12) - 1.0).abs() < 1e-9);
+        assert!((md / (m2 / 9.869233e-16) - 1.0).abs() < 1e-6);
+        assert!(f(r, "porosity_total") > 0.0 && f(r, "tortuosity_x") >= 1.0 - 1e-6);
+        assert!(f(r, "steps") > 0.0 && f(r, "wall_s") >= 0.0);
+        assert_eq!(&r[col("converged")], "true");
+    }
+    // The slit: 5 fluid layers in a period of 6 along y, flow along x (plane Poiseuille,
+    // REFERENCES.md): k = (25/12 + 1/24)·5/6 voxel²; the loose tolerance costs well under 1 %.
+    let want = (25.0 / 12.0 + 1.0 / 24.0) * 5.0 / 6.0;
+    let got = f(&rows[1], "permeability_x_voxel2");
+    assert!((got / want - 1.0).abs() < 0.01, "slit k {got} vs {want}");
+    let bad = &rows[3];
+    assert_eq!(&bad[col("status")], "failed");
+    assert!(bad[col("error")].contains("d-corrupt.tif"), "{:?}", bad);
+    assert_eq!(&bad[col("permeability_x_mD")], "");
+    assert!(
+        stdout.contains("d-corrupt") && stdout.contains("failed"),
+        "{stdout}"
+    );
+}
+
+#[test]
+fn rerun_redoes_only_missing_or_changed_samples() {
+    let dir = tempfile::tempdir().unwrap();
+    let scans = sample_folder(dir.path());
+    std::fs::remove_file(scans.join("d-corrupt.tif")).unwrap();
+    let (code, _, stderr) = batch(dir.path(), "scans", "res", &[]);
+    assert_eq!(code, 0, "{stderr}");
+    let res = dir.path().join("res");
+    let c_json = res.join("c-cell.json");
+    let (c_time, c_text) = (mtime(&c_json), std::fs::read_to_string(&c_json).unwrap());
+
+    let (code, _, stderr) = batch(dir.path(), "scans", "res", &[]);
+    assert_eq!(code, 0, "{stderr}");
+    assert_eq!(stderr.matches("skipped (unchanged)").count(), 3, "{stderr}");
+
+    // Lose one result, change one input: exactly those two are solved again.
+    std::fs::remove_file(res.join("a-cell.json")).unwrap();
+    write_mask(&scans, "b-slit.tif", &slit(Axis::Y, 4, 8));
+    let (code, _, stderr) = batch(dir.path(), "scans", "res", &[]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stderr.contains("[1/3] a-cell: porosity"), "{stderr}");
+    assert!(stderr.contains("[2/3] b-slit: porosity"), "{stderr}");
+    assert!(
+        stderr.contains("[3/3] c-cell: skipped (unchanged)"),
+        "{stderr}"
+    );
+    assert_eq!(mtime(&c_json), c_time);
+    assert_eq!(std::fs::read_to_string(&c_json).unwrap(), c_text);
+    assert!(res.join("a-cell.json").exists());
+    let b = json(&res.join("b-slit.json"));
+    assert!((b["porosity"].as_f64().unwrap() - 4.0 / 5.0).abs() < 1e-12);
+
+    // Other settings make another key: nothing is skipped.
+    let (code, _, stderr) = batch(dir.path(), "scans", "res", &["--tau", "0.8"]);
+    assert_eq!(code, 0, "{stderr}");
+    assert_eq!(stderr.matches("skipped").count(), 0, "{stderr}");
+}
+
+#[test]
+fn a_killed_batch_resumes_with_the_unfinished_samples() {
+    let dir = tempfile::tempdir().unwrap();
+    let s = dir.path().join("scans");
+    std::fs::create_dir(&s).unwrap();
+    // The middle sample is slow (a 32³ cell for 3000 steps: f32 populations never reach the
+    // tolerance), so the kill lands while it runs; the others take a fraction of a second.
+    write_mask(&s, "s1.tif", &sphere_cell(12, 4.0));
+    write_mask(&s, "s2.tif", &sphere_cell(32, 11.0));
+    write_mask(&s, "s3.tif", &sphere_cell(12, 3.0));
+    let args = [
+        "batch",
+        "scans",
+        "--out",
+        "res",
+        "--periodic",
+        "--tolerance",
+        "1e-12",
+        "--max-steps",
+        "3000",
+        "--quiet",
+    ];
+    let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
+        .current_dir(dir.path())
+        .args(args)
+        .spawn()
+        .expect("spawn");
+    let res = dir.path().join("res");
+    let start = Instant::now();
+    while !res.join("s1.json").exists() {
+        assert!(
+            start.elapsed() < Duration::from_secs(60),
+            "first result never appeared"
+        );
+        if let Some(status) = child.try_wait().unwrap() {
+            panic!("batch ended before it could be interrupted: {status}");
+        }
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    child.kill().unwrap();
+    child.wait().unwrap();
+    let finished: Vec<bool> = ["s1", "s2", "s3"]
+        .iter()
+        .map(|n| res.join(format!("{n}.json")).exists())
+        .collect();
+    assert!(
+        !finished[2],
+        "the batch finished before the kill: make s2 slower"
+    );
+    // What was finished is on disk, whole, and the summary (rewritten just after each result
+    // file, so it may lag by one) says what is still pending.
+    json(&res.join("s1.json"));
+    let summary = json(&res.join("summary.json"));
+    assert!(["ok", "pending"].contains(&summary["samples"][0]["status"].as_str().unwrap()));
+    assert_eq!(summary["samples"][2]["status"], "pending");
+
+    let (code, _, stderr) = run_in(dir.path(), &args[..args.len() - 1]);
+    assert_eq!(code, 0, "{stderr}");
+    for (i, done) in finished.iter().enumerate() {
+        let line = stderr
+            .lines()
+            .find(|l| l.starts_with(&format!("[{}/3] s{}:", i + 1, i + 1)))
+            .unwrap_or_else(|| panic!("no line for s{}: {stderr}", i + 1));
+        assert_eq!(line.contains("skipped (unchanged)"), *done, "{line}");
+    }
+    let summary = json(&res.join("summary.json"));
+    for r in summary["samples"].as_array().unwrap() {
+        assert_eq!(r["status"], "ok", "{r}");
+    }
+}
+
+#[test]
+fn manifest_defaults_overrides_and_relative_paths() {
+    let dir = tempfile::tempdir().unwrap();
+    let m = dir.path().join("study");
+    std::fs::create_dir_all(m.join("scans")).unwrap();
+    write_mask(&m.join("scans"), "a.tif", &sphere_cell(12, 4.0));
+    // Pore label 7 instead of 0: solid 255, pore 7.
+    let mask = slit(Axis::Z, 4, 6);
+    let p = m.join("scans").join("b.tif");
+    write_tiff_stack(
+        &p,
+        &Volume::from_mask(&mask, 7, 255),
+        TiffCompression::None,
+        None,
+    )
+    .unwrap();
+    std::fs::write(
+        m.join("plan.toml"),
+        r#"
+[defaults]
+voxel_size = "2um"
+periodic = true
+
+[[sample]]
+path = "scans/a.tif"
+name = "alpha"
+
+[[sample]]
+path = "scans/b.tif"
+voxel_size = "1um"
+pore_label = 7
+axis = "all"
+"#,
+    )
+    .unwrap();
+    // Run from elsewhere: paths resolve against the manifest's folder, not the working one.
+    let (code, stdout, stderr) = run_in(
+        dir.path(),
+        &[
+            "batch",
+            "study/plan.toml",
+            "--out",
+            "out",
+            "--tolerance",
+            "1e-5",
+        ],
+    );
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let a = json(&dir.path().join("out/alpha.json"));
+    assert_eq!(a["voxel_size_m"].as_f64(), Some(2e-6));
+    assert_eq!(a["axis"], "x");
+    assert_eq!(a["settings"]["ends"], "periodic");
+    assert_eq!(a["input"]["segmentation"], "pore labels 0");
+    let b = json(&dir.path().join("out/b.json"));
+    assert_eq!(b["voxel_size_m"].as_f64(), Some(1e-6));
+    assert_eq!(b["axis"], "all");
+    assert_eq!(b["input"]["segmentation"], "pore labels 7");
+    assert_eq!(b["settings"]["sides"], "periodic");
+    assert!((b["porosity"].as_f64().unwrap() - 4.0 / 5.0).abs() < 1e-12);
+}
+
+#[test]
+fn manifest_mistakes_stop_the_batch_before_any_solve() {
+    let dir = tempfile::tempdir().unwrap();
+    write_mask(dir.path(), "a.tif", &sphere_cell(12, 4.0));
+    let cases: [(&str, i32, &[&str]); 4] = [
+        (
+            "[[sample]]\npath = \"a.tif\"\n[[sample]]\npath = \"a.tif\"\nname = \"beta\"\ncolour = \"red\"\n",
+            2,
+            &["colour", "beta", "sample 2"],
+        ),
+        (
+            "[defaults]\nvoxel = \"2um\"\n[[sample]]\npath = \"a.tif\"\n",
+            2,
+            &["voxel", "[defaults]"],
+        ),
+        (
+            "[[sample]]\npath = \"a.tif\"\nends = \"open\"\n",
+            2,
+            &["ends", "open"],
+        ),
+        ("[[sample]\npath = ", 3, &["plan.toml", "TOML"]),
+    ];
+    for (text, code, needles) in cases {
+        std::fs::write(dir.path().join("plan.toml"), text).unwrap();
+        let (got, _, stderr) = batch(dir.path(), "plan.toml", "out", &[]);
+        assert_eq!(got, code, "{text}\n{stderr}");
+        let lines: Vec<&str> = stderr.lines().collect();
+        assert_eq!(lines.len(), 1, "{stderr}");
+        for n in needles {
+            assert!(lines[0].contains(n), "'{}' lacks '{n}'", lines[0]);
+        }
+        assert!(
+            !dir.path().join("out").exists(),
+            "{text}: results folder made"
+        );
+    }
+    // A huge file given as manifest is refused by its size, before it is read.
+    let big = std::fs::File::create(dir.path().join("big.toml")).unwrap();
+    big.set_len(1 << 30).unwrap();
+    let (got, _, stderr) = batch(dir.path(), "big.toml", "out", &[]);
+    assert_eq!(got, 3, "{stderr}");
+    assert!(
+        stderr.contains("big.toml") && stderr.contains("far more"),
+        "{stderr}"
+    );
+}
+
+#[test]
+fn report_is_self_contained_with_table_plots_methods_and_cautions() {
+    let dir = tempfile::tempdir().unwrap();
+    sample_folder(dir.path());
+    let (code, _, stderr) = batch(dir.path(), "scans", "res", &[]);
+    assert_eq!(code, 5, "{stderr}");
+    let (code, _, stderr) = run_in(
+        dir.path(),
+        &[
+            "report",
+            "res",
+            "--out",
+            "report.html",
+            "--markdown",
+            "report.md",
+        ],
+    );
+    assert_eq!(code, 0, "{stderr}");
+    let html = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
+    for needle in [
+        "<table",
+        "Comparison of samples",
+        "a-cell",
+        "b-slit",
+        "c-cell",
+        "k (mD)",
+        "k (m²)",
+        "anisotropy",
+        "Kozeny–Carman k (mD)",
+        "pore diameter (voxels)",
+        // The failed sample with its error.
+        "d-corrupt",
+        "d-corrupt.tif",
+        // Axis labels with units, in the SVG text.
+        "porosity φ (–)",
+        "permeability k (mD)",
+        "hydraulic tortuosity Σ|u| / Σu_axis (–)",
+        "local speed |u| / mean speed ⟨|u|⟩ (–)",
+        "fluid nodes per bin (%)",
+        "y (µm)",
+        "z (µm)",
+        "|u| / ⟨|u|⟩ (–)",
+        // Methods from the recorded settings, and the cautions.
+        "id=\"methods\"",
+        "D3Q19",
+        "two-relaxation-time (TRT)",
+        "Λ = (τ⁺ − ½)(τ⁻ − ½) = 0.1875",
+        "below 1e-5",
+        "sides periodic, ends periodic",
+        "only clusters spanning inlet to outlet",
+        "id=\"cautions\"",
+        voxperm::report::json::CAUTION,
+    ] {
+        assert!(html.contains(needle), "report lacks '{needle}'");
+    }
+    // 3 comparison plots + speed histogram and map for each of the 3 samples.
+    assert_eq!(html.matches("<svg ").count(), 9);
+    let outside = html
+        .match_indices("http")
+        .filter(|(i, _)| !html[*i..].starts_with("http://www.w3.org/2000/svg\""))
+        .count();
+    assert_eq!(outside, 0, "the page refers to something outside itself");
+    assert!(!html.contains("<script") && !html.contains("<link") && !html.contains("src="));
+
+    let md = std::fs::read_to_string(dir.path().join("report.md")).unwrap();
+    assert!(md.contains("## Methods") && md.contains("## Cautions"));
+    let svgs: Vec<&str> = md
+        .lines()
+        .filter_map(|l| l.strip_prefix("![").and_then(|l| l.split("](").nth(1)))
+        .map(|l| l.trim_end_matches(')'))
+        .collect();
+    assert_eq!(svgs.len(), 9, "{md}");
+    for f in svgs {
+        let svg = std::fs::read_to_string(dir.path().join(f)).unwrap();
+        assert!(svg.starts_with("<svg"), "{f}");
+    }
+}
+
+#[test]
+fn report_reads_single_estimate_results_too() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(12, 4.0));
+    let (code, _, stderr) = run_in(
+        dir.path(),
+        &[
+            "estimate",
+            sample.to_str().unwrap(),
+            "--json",
+            "cell.json",
+            "--periodic",
+            "--tolerance",
+            "1e-5",
+            "-q",
+        ],
+    );
+    assert_eq!(code, 0, "{stderr}");
+    let (code, _, stderr) = run_in(dir.path(), &["report", "cell.json", "--out", "r.html"]);
+    assert_eq!(code, 0, "{stderr}");
+    let html = std::fs::read_to_string(dir.path().join("r.html")).unwrap();
+    // No voxel size: permeability in voxel², map axes in voxels.
+    assert!(html.contains("permeability k (voxel²)") && html.contains("y (voxels)"));
+    let (code, _, stderr) = run_in(dir.path(), &["report", "cell.json"]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("--out"), "{stderr}");
+}
