@@ -58,9 +58,9 @@ pub fn run_cmd(a: BenchArgs) -> Result<i32> {
         BenchConfig::full(threads)
     };
     if !a.sizes.is_empty() {
-        if let Some(&bad) = a.sizes.iter().find(|&&n| !(16..=1024).contains(&n)) {
+        if let Some(&bad) = a.sizes.iter().find(|&&n| !(32..=1024).contains(&n)) {
             return Err(Error::Usage(format!(
-                "--sizes {bad}: box edges must lie between 16 and 1024"
+                "--sizes {bad}: box edges must lie between 32 and 1024"
             )));
         }
         cfg.sizes = a.sizes.clone();
@@ -137,7 +137,7 @@ fn render(r: &BenchReport) -> String {
     let mut out = String::new();
     let _ = writeln!(
         out,
-        "memory bandwidth, GB/s (3 arrays of {} MiB, best of {})",
+        "memory bandwidth, GB/s (3 arrays of {} MiB, best of {} in each of two passes, before and after the kernel)",
         r.config.bandwidth_array_bytes >> 20,
         r.config.reps
     );

@@ -15,5 +15,5 @@ pub mod solver;
 pub use boundary::{BoundaryMode, Ends, Sides};
 pub use domain::Domain;
 pub use solver::{
-    Collision, FlowField, Progress, Silent, SolverSettings, hydraulic_diameter, solve,
+    Collision, FlowField, Progress, Silent, SolverSettings, auto_tau, hydraulic_diameter, solve,
 };

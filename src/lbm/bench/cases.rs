@@ -98,14 +98,27 @@ pub struct KernelCase {
     pub roofline_fraction: f64,
 }
 
+impl KernelCase {
+    /// Fills the roofline figures from the copy bandwidth at this case's thread count.
+    pub fn set_roofline(&mut self, copy_gb_s: f64) {
+        self.copy_gb_s = copy_gb_s;
+        self.attainable_mlups = attainable_mlups(copy_gb_s, self.traffic.total);
+        self.roofline_fraction = if self.attainable_mlups > 0.0 {
+            self.mlups / self.attainable_mlups
+        } else {
+            0.0
+        };
+    }
+}
+
 /// Times the kernel on `mask` (periodic, flow along x) on `pool`: `reps` repetitions of at least
-/// `min_seconds` each, after two warm-up step pairs.
+/// `min_seconds` each, after two warm-up step pairs. The roofline figures are left at zero for
+/// [`KernelCase::set_roofline`].
 #[allow(clippy::too_many_arguments)]
 pub fn time_kernel(
     structure: BenchStructure,
     mask: &PoreMask,
     pool: &ThreadPool,
-    copy_gb_s: f64,
     reps: usize,
     min_seconds: f64,
     max_bytes: u64,
@@ -160,7 +173,6 @@ pub fn time_kernel(
     let updates = (n * pairs) as f64;
     let mlups = 2.0 * updates / (even_s + odd_s) / 1e6;
     let t = traffic(n as u64, domain.voxels() as u64);
-    let attainable = attainable_mlups(copy_gb_s, t.total);
     Ok(KernelCase {
         structure,
         size: mask.shape()[0],
@@ -173,12 +185,8 @@ pub fn time_kernel(
         odd_mlups: updates / odd_s / 1e6,
         traffic: t,
         achieved_gb_s: mlups * 1e6 * t.total / 1e9,
-        copy_gb_s,
-        attainable_mlups: attainable,
-        roofline_fraction: if attainable > 0.0 {
-            mlups / attainable
-        } else {
-            0.0
-        },
+        copy_gb_s: 0.0,
+        attainable_mlups: 0.0,
+        roofline_fraction: 0.0,
     })
 }
