@@ -75,7 +75,7 @@ fn bench_command_writes_json_and_refuses_bad_options() {
         .args([
             "bench",
             "--sizes",
-            "24",
+            "32",
             "--structures",
             "foam",
             "--threads",
