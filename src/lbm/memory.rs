@@ -14,9 +14,9 @@
 //!
 //! plus about [`BASE_BYTES`] for the program itself. The solve stage is the peak for any sample
 //! with more than a few % porosity. Measured with `/usr/bin/time -v` (maximum resident set) on
-//! 256³ overlapping-sphere samples, 2 threads: porosity 0.30 periodic 501.0 MB against 500.8 MB
-//! modelled, mirrored ends (512×256×256 grid) 980.9 MB against 980.4 MB; porosity 0.20
-//! periodic 363.4 MB against 363.0 MB, mirrored 704.9 MB against 704.5 MB (README,
+//! 256³ overlapping-sphere samples, 2 threads: porosity 0.30 periodic 501.5 MB against 500.8 MB
+//! modelled, mirrored ends (512×256×256 grid) 981.3 MB against 980.4 MB; porosity 0.20
+//! periodic 363.7 MB against 363.0 MB, mirrored 705.2 MB against 704.5 MB (README,
 //! Performance). The loading stage (voxel values
 //! plus mask) is [`load_peak_bytes`].
 
