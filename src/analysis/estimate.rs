@@ -46,6 +46,8 @@ pub struct AxisEstimate {
     pub residual: f64,
     pub wall_seconds: f64,
     pub mlups: f64,
+    /// τ⁺ the solve ran with (differs from the settings' τ with automatic τ).
+    pub tau: f64,
     /// Body-force magnitude, lattice units.
     pub body_force: f64,
     pub fluid_nodes: usize,
@@ -138,6 +140,7 @@ pub fn estimate_axis(
         residual: field.residual,
         wall_seconds: field.wall_seconds,
         mlups: field.mlups,
+        tau: field.tau,
         body_force: field.force[axis.index()],
         fluid_nodes: domain.fluid_nodes(),
         grid_shape: domain.shape,
@@ -228,6 +231,7 @@ fn no_path(axis: Axis, cfg: &EstimateConfig) -> AxisEstimate {
         residual: 0.0,
         wall_seconds: 0.0,
         mlups: 0.0,
+        tau: cfg.solver.tau,
         body_force: 0.0,
         fluid_nodes: 0,
         grid_shape: [0; 3],

@@ -51,6 +51,10 @@ pub struct SolverArgs {
     /// Relaxation time τ (TRT: τ⁺); sets the lattice viscosity (τ − ½)/3.
     #[arg(long, default_value_t = 1.0)]
     pub tau: f64,
+    /// Choose τ per solve from the pore size and grid length for the fewest steps (TRT only;
+    /// k does not depend on τ). Overrides --tau.
+    #[arg(long)]
+    pub auto_tau: bool,
     /// TRT magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½).
     #[arg(long, default_value_t = 3.0 / 16.0, value_name = "LAMBDA")]
     pub magic: f64,
@@ -198,6 +202,7 @@ impl SolverArgs {
             max_steps: self.max_steps,
             check_every: self.check_every,
             force: self.force,
+            auto_tau: self.auto_tau,
             ..SolverSettings::default()
         };
         let warnings = s.validate()?;

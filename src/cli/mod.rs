@@ -5,6 +5,7 @@ mod args;
 mod batch;
 mod batch_plan;
 mod batch_progress;
+mod bench;
 mod check;
 mod describe;
 mod estimate;
@@ -44,10 +45,13 @@ enum Command {
     Synth(synth::SynthArgs),
     /// Run the built-in reference suite against published and analytic results.
     Check(check::CheckArgs),
+    /// Kernel speed against measured memory bandwidth (the roofline), on generated structures.
+    Bench(bench::BenchArgs),
 }
 
 /// Runs the command line and returns the process exit code.
 pub fn main() -> i32 {
+    voxperm::lbm::memory::return_large_blocks_promptly();
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {
@@ -67,6 +71,7 @@ pub fn main() -> i32 {
         Command::Report(a) => report::run(a),
         Command::Synth(a) => synth::run(a),
         Command::Check(a) => check::run(a),
+        Command::Bench(a) => bench::run_cmd(a),
     };
     match result {
         Ok(code) => code,

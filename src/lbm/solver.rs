@@ -65,6 +65,9 @@ pub struct SolverSettings {
     pub target_speed: f64,
     /// Stop with an error when the peak Mach number |u|/c_s exceeds this.
     pub max_mach: f64,
+    /// Choose τ per solve from the geometry for the fewest steps ([`auto_tau`]); `tau` is then
+    /// not used. TRT only (BGK's k depends on τ).
+    pub auto_tau: bool,
 }
 
 impl Default for SolverSettings {
@@ -79,6 +82,7 @@ impl Default for SolverSettings {
             force: None,
             target_speed: 2e-3,
             max_mach: 0.1,
+            auto_tau: false,
         }
     }
 }
@@ -126,6 +130,11 @@ impl SolverSettings {
                 self.tolerance
             )));
         }
+        if self.auto_tau && self.collision == Collision::Bgk {
+            return Err(Error::Usage(
+                "automatic τ needs TRT: with BGK the permeability depends on τ".into(),
+            ));
+        }
         if self.max_steps < 2 {
             return Err(Error::Usage("--max-steps must be at least 2".into()));
         }
@@ -151,6 +160,32 @@ pub fn auto_force(domain: &Domain, nu: f64, target_speed: f64) -> f64 {
     let by_speed = 16.0 * nu * target_speed / (dh * dh);
     let by_reynolds = 32.0 * nu * nu * TARGET_REYNOLDS / (dh * dh * dh);
     by_speed.min(by_reynolds)
+}
+
+/// Lower and upper bounds of the automatic τ.
+pub const AUTO_TAU_RANGE: (f64, f64) = (0.55, 1.0);
+
+/// Constant of the automatic viscosity ν = C d_h² / L, fitted to step counts measured on
+/// random sphere packs (README, Performance).
+pub const AUTO_TAU_CONSTANT: f64 = 1.0 / 3.0;
+
+/// The τ that reaches steady state in the fewest steps, from the geometry.
+///
+/// Two slow processes set the step count, and they move in opposite directions with ν:
+/// momentum diffusing across a pore of hydraulic diameter d_h takes ~d_h²/ν steps, while the
+/// density (pressure) field settles by Darcy diffusion, φ ∂ρ/∂t = (k c_s²/ν) ∇²ρ (Darcy's law
+/// in the continuity equation), which over the grid length L takes ~L² φ ν/(k c_s²) steps.
+/// With k ~ φ d_h²/32 (tube model) the two balance at ν ∝ d_h²/L; the constant
+/// [`AUTO_TAU_CONSTANT`] is fitted to measured step counts (derivation and measurements in
+/// README.md, Performance). The TRT steady state does not depend on ν at fixed Λ (Ginzburg,
+/// Verhaeghe & d'Humières 2008, Commun. Comput. Phys. 3, 427), so this changes the step count,
+/// not k (measured drift 0.06 % between τ = 0.6 and τ = 1 on a 128³ pack). Clamped to
+/// [`AUTO_TAU_RANGE`].
+pub fn auto_tau(domain: &Domain) -> f64 {
+    let dh = hydraulic_diameter(domain);
+    let l = *domain.shape.iter().max().unwrap_or(&1) as f64;
+    let nu = AUTO_TAU_CONSTANT * dh * dh / l;
+    (0.5 + nu / CS2).clamp(AUTO_TAU_RANGE.0, AUTO_TAU_RANGE.1)
 }
 
 /// Reynolds number the automatic force aims below (creeping flow: Re ≪ 1, common practice).
@@ -222,6 +257,8 @@ pub struct FlowField {
     pub velocity: Vec<[f32; 3]>,
     /// Body force used (lattice units, vector).
     pub force: [f64; 3],
+    /// τ⁺ the solve ran with (chosen by [`auto_tau`] when asked for).
+    pub tau: f64,
     pub viscosity: f64,
     pub tau_minus: f64,
     pub steps: usize,
@@ -248,6 +285,17 @@ pub fn solve(
             "the solver grid has no fluid nodes".into(),
         ));
     }
+    let resolved;
+    let settings = if settings.auto_tau {
+        resolved = SolverSettings {
+            tau: auto_tau(domain),
+            auto_tau: false,
+            ..settings.clone()
+        };
+        &resolved
+    } else {
+        settings
+    };
     let nu = settings.viscosity();
     let tau_m = settings.tau_minus();
     let g = settings
@@ -327,12 +375,13 @@ pub fn solve(
     let wall = started.elapsed().as_secs_f64();
     progress.on_finish();
     // The loop always stops after a completed step pair (window and cap are even).
-    let (density, velocity) = lattice.macroscopic(&params);
     let steps = lattice.steps;
+    let (density, velocity) = lattice.into_macroscopic(&params);
     Ok(FlowField {
         density,
         velocity,
         force,
+        tau: settings.tau,
         viscosity: nu,
         tau_minus: tau_m,
         steps,
