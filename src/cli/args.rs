@@ -2,7 +2,7 @@
 //! settings (every cross-option rule is checked here, before any file is read).
 
 use clap::Args;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use voxperm::geometry::Axis;
 use voxperm::lbm::{BoundaryMode, Collision, Ends, Sides, SolverSettings};
 use voxperm::volume::{
@@ -254,23 +254,15 @@ pub fn parse_axes(s: &str) -> Result<Vec<Axis>> {
 /// Fails now, before hours of solving, if an output could not be written later: its folder
 /// must exist and it must not be a folder itself.
 pub fn check_output_path(path: &Path, flag: &str) -> Result<()> {
-    let folder = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    if !folder.is_dir() {
-        return Err(Error::Output {
-            path: path.to_path_buf(),
-            msg: format!("{flag}: the folder {} does not exist", folder.display()),
-        });
-    }
-    if path.is_dir() {
-        return Err(Error::Output {
-            path: path.to_path_buf(),
-            msg: format!("{flag}: is a folder, expected a file name"),
-        });
-    }
-    Ok(())
+    voxperm::volume::check_destination(path)
+        .map(|_| ())
+        .map_err(|e| match e {
+            Error::Output { path, msg } => Error::Output {
+                path,
+                msg: format!("{flag}: {msg}"),
+            },
+            other => other,
+        })
 }
 
 #[cfg(test)]

@@ -23,22 +23,7 @@ pub fn write_atomically(
     path: &Path,
     f: impl FnOnce(&mut BufWriter<File>) -> Result<()>,
 ) -> Result<()> {
-    let folder = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    if !folder.is_dir() {
-        return Err(Error::Output {
-            path: path.to_path_buf(),
-            msg: format!("the folder {} does not exist", folder.display()),
-        });
-    }
-    if path.is_dir() {
-        return Err(Error::Output {
-            path: path.to_path_buf(),
-            msg: "is a folder, expected a file name".into(),
-        });
-    }
+    let folder = check_destination(path)?;
     let Some(name) = path.file_name() else {
         return Err(Error::Output {
             path: path.to_path_buf(),
@@ -56,6 +41,28 @@ pub fn write_atomically(
             Err(e)
         }
     }
+}
+
+/// Checks that `path` could be written: its folder exists and it is not itself a folder.
+/// Returns the folder. Commands call this before long work so a bad output path fails at once.
+pub fn check_destination(path: &Path) -> Result<PathBuf> {
+    let folder = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    if !folder.is_dir() {
+        return Err(Error::Output {
+            path: path.to_path_buf(),
+            msg: format!("the folder {} does not exist", folder.display()),
+        });
+    }
+    if path.is_dir() {
+        return Err(Error::Output {
+            path: path.to_path_buf(),
+            msg: "is a folder, expected a file name".into(),
+        });
+    }
+    Ok(folder)
 }
 
 /// An [`Error::Output`] for an I/O failure while writing `path`.
