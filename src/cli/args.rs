@@ -206,16 +206,34 @@ impl SolverArgs {
             ..SolverSettings::default()
         };
         let warnings = s.validate()?;
-        if self.threads == Some(0) {
-            return Err(Error::Usage("--threads must be at least 1".into()));
-        }
+        check_threads(self.threads)?;
         Ok((s, warnings))
     }
 
     /// Number of worker threads to use.
     pub fn thread_count(&self) -> usize {
-        self.threads
-            .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+        thread_count(self.threads)
+    }
+}
+
+/// Most worker threads accepted: far above any core count that helps a bandwidth-bound solve,
+/// low enough that a typo cannot start tens of thousands of threads.
+pub const MAX_THREADS: usize = 1024;
+
+/// `--threads`, or all cores when it is not given.
+pub fn thread_count(threads: Option<usize>) -> usize {
+    threads.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+}
+
+/// Refuses `--threads 0` and absurd counts before any thread is started.
+pub fn check_threads(threads: Option<usize>) -> Result<()> {
+    match threads {
+        Some(0) => Err(Error::Usage("--threads must be at least 1".into())),
+        Some(n) if n > MAX_THREADS => Err(Error::Usage(format!(
+            "--threads {n} is more than the {MAX_THREADS} allowed (this machine has {} cores)",
+            std::thread::available_parallelism().map_or(1, |c| c.get())
+        ))),
+        _ => Ok(()),
     }
 }
 
@@ -276,6 +294,14 @@ mod tests {
         assert_eq!(parse_bytes("1024").unwrap(), 1024);
         assert!(parse_bytes("lots").is_err());
         assert!(parse_bytes("5parsecs").is_err());
+    }
+
+    #[test]
+    fn refuses_absurd_thread_counts() {
+        assert!(check_threads(None).is_ok());
+        assert!(check_threads(Some(2)).is_ok());
+        assert!(check_threads(Some(0)).is_err());
+        assert!(check_threads(Some(100_000)).is_err());
     }
 
     #[test]

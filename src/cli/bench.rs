@@ -46,12 +46,8 @@ pub struct BenchArgs {
 
 /// Runs the command.
 pub fn run_cmd(a: BenchArgs) -> Result<i32> {
-    let threads = a
-        .threads
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
-    if threads == 0 {
-        return Err(Error::Usage("--threads must be at least 1".into()));
-    }
+    super::args::check_threads(a.threads)?;
+    let threads = super::args::thread_count(a.threads);
     let mut cfg = if a.quick {
         BenchConfig::quick(threads)
     } else {

@@ -36,15 +36,11 @@ pub struct CheckArgs {
 /// Runs the command.
 pub fn run(a: CheckArgs) -> Result<i32> {
     let level = if a.full { Level::Full } else { Level::Quick };
-    if a.threads == Some(0) {
-        return Err(Error::Usage("--threads must be at least 1".into()));
-    }
+    super::args::check_threads(a.threads)?;
     if let Some(p) = &a.json {
         check_output_path(p, "--json")?;
     }
-    let threads = a
-        .threads
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let threads = super::args::thread_count(a.threads);
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build()
