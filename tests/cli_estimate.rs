@@ -290,6 +290,13 @@ fn bad_inputs_fail_with_one_clear_line_and_no_output() {
         &["s2.tif"],
         &json,
     );
+    // An absurd thread count is refused before any thread starts.
+    assert_fails(
+        &["estimate", g, "--threads", "100000", "--json", j],
+        2,
+        &["--threads"],
+        &json,
+    );
     // τ at or below ½: usage error.
     assert_fails(
         &["estimate", g, "--tau", "0.5", "--json", j],
