@@ -290,6 +290,14 @@ fn bad_inputs_fail_with_one_clear_line_and_no_output() {
         &["s2.tif"],
         &json,
     );
+    // The result file must not overwrite the input sample.
+    let (code, _, stderr) = run(&["estimate", g, "--json", g]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("input sample itself"), "{stderr}");
+    assert!(
+        std::fs::read(&good).unwrap().starts_with(b"II")
+            || std::fs::read(&good).unwrap().starts_with(b"MM")
+    );
     // An absurd thread count is refused before any thread starts.
     assert_fails(
         &["estimate", g, "--threads", "100000", "--json", j],

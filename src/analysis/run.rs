@@ -19,6 +19,10 @@ use crate::volume::sample::{Sample, SampleSpec, input_sha256, load_sample};
 use crate::volume::{CropSpec, ReadLimits};
 use crate::{Error, Result};
 
+/// Pore (hydraulic) diameter 4φ/S, in voxels, below which results carry a resolution warning:
+/// about ten voxels across a pore for a few-% permeability error (common practice).
+pub const MIN_PORE_DIAMETER_VOXELS: f64 = 10.0;
+
 /// Everything about a run that is not the sample itself.
 #[derive(Debug, Clone)]
 pub struct RunConfig {
@@ -177,11 +181,10 @@ fn solve_warnings(est: &Estimate, porosity: f64, surface: &Surface) -> Vec<Strin
             ));
         }
     }
-    let dh = 4.0 * porosity / (surface.face_area_per_bulk.max(f64::MIN_POSITIVE));
-    if dh < 6.0 {
-        // Common practice: about ten voxels across a pore for a few-% permeability error.
+    let dh = 4.0 * porosity / (surface.specific_surface.max(f64::MIN_POSITIVE));
+    if dh < MIN_PORE_DIAMETER_VOXELS {
         warnings.push(format!(
-            "pores are resolved by only about {dh:.1} voxels (hydraulic diameter); expect a resolution error of several % or more"
+            "pores are resolved by only about {dh:.1} voxels (hydraulic diameter 4φ/S); expect a resolution error of several %: image at a finer voxel size, or compare with the sample resampled coarser to see the trend"
         ));
     }
     warnings

@@ -220,6 +220,21 @@ impl SolverArgs {
 /// low enough that a typo cannot start tens of thousands of threads.
 pub const MAX_THREADS: usize = 1024;
 
+/// Refuses an output that would overwrite the input (e.g. `--json scan.tif` for `scan.tif`).
+pub fn check_not_input(output: &Path, input: &Path, flag: &str) -> Result<()> {
+    let same = match (std::fs::canonicalize(output), std::fs::canonicalize(input)) {
+        (Ok(o), Ok(i)) => o == i,
+        _ => false,
+    };
+    if same {
+        return Err(Error::Usage(format!(
+            "{flag} {} is the input sample itself; choose another output file",
+            output.display()
+        )));
+    }
+    Ok(())
+}
+
 /// `--threads`, or all cores when it is not given.
 pub fn thread_count(threads: Option<usize>) -> usize {
     threads.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))

@@ -16,7 +16,7 @@ use voxperm::{Error, Result};
 /// Options of `voxperm check`.
 #[derive(Args, Debug)]
 pub struct CheckArgs {
-    /// One small grid per case (the default; about a minute on two cores).
+    /// One small grid per case (the default; 5–15 s measured on two cores).
     #[arg(long, conflicts_with = "full")]
     pub quick: bool,
     /// Two or three grids per case, showing how the error falls with resolution (minutes).

@@ -39,6 +39,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     let mode = a.boundary.mode(BoundaryMode::SCAN)?;
     if let Some(p) = &a.json {
         check_output_path(p, "--json")?;
+        super::args::check_not_input(p, &a.sample, "--json")?;
     }
     let spec = SampleSpec {
         path: a.sample.clone(),

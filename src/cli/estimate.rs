@@ -1,6 +1,8 @@
 //! `voxperm estimate`: the main job — flow through one sample, permeability and friends.
 
-use super::args::{BoundaryArgs, InputArgs, SolverArgs, check_output_path, parse_axes};
+use super::args::{
+    BoundaryArgs, InputArgs, SolverArgs, check_not_input, check_output_path, parse_axes,
+};
 use super::progress::Bar;
 use clap::Args;
 use std::path::PathBuf;
@@ -57,6 +59,7 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     };
     if let Some(p) = &a.json {
         check_output_path(p, "--json")?;
+        check_not_input(p, &a.sample, "--json")?;
     }
     let spec = SampleSpec {
         path: a.sample.clone(),
@@ -84,6 +87,7 @@ fn vtk_request(a: &EstimateArgs) -> Result<Option<VtkRequest>> {
     }
     let Some(p) = &a.vtk else { return Ok(None) };
     check_output_path(p, "--vtk")?;
+    check_not_input(p, &a.sample, "--vtk")?;
     if p.extension().and_then(|e| e.to_str()) != Some("vti") {
         return Err(Error::Usage(format!(
             "--vtk {}: the file name must end in .vti (VTK XML image data)",

@@ -85,15 +85,25 @@ pub fn main() -> i32 {
 /// Folds clap's multi-line usage error into one line: the error itself and any "tip" (the
 /// nearest valid option or value), then a pointer to --help.
 fn one_line_usage(text: &str) -> String {
+    // Everything before clap's "Usage:" block: the error, any indented detail lines (such as the
+    // names of missing arguments) and tips.
     let mut parts: Vec<&str> = text
         .lines()
         .map(str::trim)
-        .filter(|l| l.starts_with("error:") || l.starts_with("tip:"))
+        .take_while(|l| !l.starts_with("Usage:"))
+        .filter(|l| !l.is_empty())
         .collect();
     if parts.is_empty() {
         parts.push(text.lines().next().unwrap_or("error: bad command line"));
     }
-    format!("{}; see --help", parts.join("; "))
+    let mut line = String::new();
+    for p in parts {
+        if !line.is_empty() {
+            line.push_str(if line.ends_with(':') { " " } else { "; " });
+        }
+        line.push_str(p);
+    }
+    format!("{line}; see --help")
 }
 
 #[cfg(test)]
@@ -108,6 +118,12 @@ mod tests {
         assert!(
             line.starts_with("error: unexpected argument '--tua'"),
             "{line}"
+        );
+        let e = Cli::try_parse_from(["voxperm", "estimate"]).unwrap_err();
+        let line = one_line_usage(&e.to_string());
+        assert!(
+            line.contains("<SAMPLE>"),
+            "the missing argument should be named: {line}"
         );
         let e = Cli::try_parse_from(["voxperm", "estimat"]).unwrap_err();
         let line = one_line_usage(&e.to_string());

@@ -135,6 +135,9 @@ impl SolverSettings {
                 "automatic τ needs TRT: with BGK the permeability depends on τ".into(),
             ));
         }
+        if self.check_every == 0 {
+            return Err(Error::Usage("--check-every must be at least 1".into()));
+        }
         if self.max_steps < 2 {
             return Err(Error::Usage("--max-steps must be at least 2".into()));
         }
@@ -332,14 +335,19 @@ pub fn solve(
         if !sums.u2_max.is_finite() || sums.u.iter().any(|v| !v.is_finite()) {
             return Err(Error::Diverged {
                 step,
-                reason: "the velocity became NaN or infinite; try a larger --tau".into(),
+                reason: if settings.force.is_some() {
+                    "the velocity became NaN or infinite; lower --force or leave it out (automatic)"
+                        .into()
+                } else {
+                    "the velocity became NaN or infinite; try a larger --tau".into()
+                },
             });
         }
         if max_speed / cs > settings.max_mach {
             return Err(Error::Diverged {
                 step,
                 reason: format!(
-                    "peak Mach number {:.3} exceeds {}; the body force is too strong for this geometry",
+                    "peak Mach number {:.3} exceeds {}; the body force is too strong for this geometry (lower --force or leave it out)",
                     max_speed / cs,
                     settings.max_mach
                 ),

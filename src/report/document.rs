@@ -440,7 +440,7 @@ fn cautions(entries: &[Entry]) -> Vec<String> {
         .filter_map(|e| {
             e.result
                 .pore_diameter_voxels()
-                .filter(|d| *d < 10.0)
+                .filter(|d| *d < crate::analysis::run::MIN_PORE_DIAMETER_VOXELS)
                 .map(|d| format!("{} ({} voxels)", e.name, num(d)))
         })
         .collect();

@@ -135,7 +135,8 @@ pub struct AxisView {
     pub flow: Option<FlowView>,
     pub steps: usize,
     pub converged: bool,
-    pub residual: f64,
+    /// `null` in the file when no convergence check had run yet (infinite residual).
+    pub residual: Option<f64>,
     pub body_force: f64,
 }
 
