@@ -181,6 +181,12 @@ pub fn from_manifest(
     axis: &str,
     boundary: &BoundaryArgs,
 ) -> Result<Vec<Planned>> {
+    if manifest.extension().and_then(|e| e.to_str()) != Some("toml") {
+        return Err(Error::Usage(format!(
+            "{}: a batch needs a folder of samples or a .toml manifest (for one sample use voxperm estimate)",
+            manifest.display()
+        )));
+    }
     // A manifest is a few kilobytes; the same cap as for result files keeps a wrong file out.
     let text = voxperm::report::result::read_small(manifest, "batch manifest")?;
     let bad = |m: String| Error::Usage(format!("{}: {m}", manifest.display()));

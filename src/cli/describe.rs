@@ -135,7 +135,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         Some(kc) => {
             let phys = dx.map_or(String::new(), |dx| {
                 let m2 = lattice_to_m2(kc, dx);
-                format!(" = {m2:.4e} m² = {:.4} mD", m2_to_md(m2))
+                format!(" = {m2:.4e} m² = {:.4e} mD", m2_to_md(m2))
             });
             let _ = writeln!(
                 out,

@@ -399,7 +399,7 @@ fn method_text(r: &ResultView) -> String {
     let force = match v.force {
         Some(g) => format!("a body force g = {g:e} (lattice units) given by the user"),
         None => format!(
-            "a body force chosen from the pore size so that the flow stays slow (target peak speed {} lattice units, Reynolds number below {})",
+            "a body force chosen from the pore size so that the flow stays slow (target peak speed {} lattice units, aiming at a Reynolds number below {}; the value reached is in each result)",
             v.target_speed.map_or("–".into(), |u| format!("{u:e}")),
             crate::lbm::solver::TARGET_REYNOLDS
         ),

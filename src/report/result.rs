@@ -21,15 +21,20 @@ pub const MAX_RESULT_BYTES: u64 = 64 << 20;
 /// Reads a text file of at most [`MAX_RESULT_BYTES`], checking the size first.
 pub fn read_small(path: &Path, what: &str) -> Result<String> {
     let bad = |m: String| Error::bad_input(path, m);
-    let len = std::fs::metadata(path)
-        .map_err(|e| bad(crate::volume::one_line(&e.to_string())))?
-        .len();
+    let len = match std::fs::metadata(path) {
+        Ok(m) => m.len(),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+            return Err(bad("no such file or folder".into()));
+        }
+        Err(e) => return Err(bad(crate::volume::one_line(&e.to_string()))),
+    };
     if len > MAX_RESULT_BYTES {
         return Err(bad(format!(
             "{len} bytes is far more than any {what} (at most {MAX_RESULT_BYTES})"
         )));
     }
-    std::fs::read_to_string(path).map_err(|e| bad(crate::volume::one_line(&e.to_string())))
+    let bytes = std::fs::read(path).map_err(|e| bad(crate::volume::one_line(&e.to_string())))?;
+    String::from_utf8(bytes).map_err(|_| bad(format!("not a {what}: the file is not text")))
 }
 
 /// One sample's result as written by `estimate --json` and by `batch`.

@@ -61,7 +61,7 @@ pub fn render(r: &EstimateReport) -> String {
     if let Some(g) = &r.geometry {
         let _ = writeln!(
             s,
-            "surface     {:.4e} per voxel ({})",
+            "surface     {:.4e} 1/voxel ({})",
             g.specific_surface_per_voxel, g.surface_estimator
         );
     }
@@ -118,6 +118,19 @@ pub fn render(r: &EstimateReport) -> String {
             t.anisotropy_ratio,
             t.asymmetry
         );
+        if let Some(m2) = r.principal_permeabilities_m2 {
+            let md = m2.map(crate::analysis::units::m2_to_md);
+            let _ = writeln!(
+                s,
+                "principal values [m²]     {} {} {}  = {} {} {} mD",
+                sci(m2[0]),
+                sci(m2[1]),
+                sci(m2[2]),
+                sig4(md[0]),
+                sig4(md[1]),
+                sig4(md[2])
+            );
+        }
         for (v, d) in t.principal_values.iter().zip(&t.principal_directions) {
             let _ = writeln!(
                 s,
