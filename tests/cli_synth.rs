@@ -427,7 +427,7 @@ fn bad_options_fail_with_one_line_and_leave_no_file() {
         ),
         (
             &["sphere-array", "--solid-fraction", "0.7", "--cell", "16"],
-            "solid_fraction",
+            "--solid-fraction",
         ),
         (
             &[

@@ -123,10 +123,17 @@ pub fn estimate_axis(
     let k_m2 = cfg.voxel_size_m.map(|dx| lattice_to_m2(k, dx));
     let mut note = None;
     if !field.converged {
-        note = Some(format!(
-            "not converged: residual {:.2e} after {} steps (tolerance {:.1e}); raise --max-steps",
-            field.residual, field.steps, cfg.solver.tolerance
-        ));
+        note = Some(if field.residual.is_finite() {
+            format!(
+                "not converged: residual {:.2e} after {} steps (tolerance {:.1e}); raise --max-steps",
+                field.residual, field.steps, cfg.solver.tolerance
+            )
+        } else {
+            format!(
+                "not converged: stopped after {} steps, before the first convergence check (every {} steps); raise --max-steps",
+                field.steps, cfg.solver.check_every
+            )
+        });
     }
     let est = AxisEstimate {
         axis,

@@ -637,7 +637,10 @@ pub fn run(a: SynthArgs) -> Result<i32> {
     };
     plan.check()?;
     check_memory(&structure, voxperm::volume::available_memory_bytes())?;
-    let built = generate(&structure, seed.unwrap_or(0))?;
+    let built = generate(&structure, seed.unwrap_or(0)).map_err(|e| match e {
+        Error::Usage(msg) => Error::Usage(in_option_words(&msg)),
+        other => other,
+    })?;
     write_and_report(&plan, &structure, seed, &built)?;
     Ok(voxperm::error::exit::OK)
 }
@@ -713,5 +716,62 @@ mod tests {
             RadiusDist::LogNormal { .. }
         ));
         assert!(g(0.2, Some("gamma")).dist().is_err());
+    }
+}
+
+/// Rewrites a generator message in the words of the command line: the library's structure
+/// names become the subcommand names, and snake_case parameter names become their options
+/// (`solid_fraction` → `--solid-fraction`).
+fn in_option_words(msg: &str) -> String {
+    const KINDS: [(&str, &str); 10] = [
+        ("synth sphere_array", "synth sphere-array"),
+        ("synth cylinder_array", "synth cylinder-array"),
+        ("synth sphere_pack", "synth sphere-pack"),
+        ("synth boolean", "synth overlapping-spheres"),
+        ("synth slit_stack", "synth slits"),
+        ("synth slit", "synth slits"),
+        ("synth square_duct", "synth duct"),
+        ("synth fibres", "synth fibres"),
+        ("synth foam", "synth foam"),
+        ("synth tube", "synth tube"),
+    ];
+    let mut text = msg.to_string();
+    if let Some((lib, cli)) = KINDS.iter().find(|(lib, _)| text.starts_with(lib)) {
+        text = format!("{cli}{}", &text[lib.len()..]);
+    }
+    let mut out = String::with_capacity(text.len() + 8);
+    for (n, word) in text.split(' ').enumerate() {
+        if n > 0 {
+            out.push(' ');
+        }
+        let core = word.trim_end_matches([',', ':', ';', '.', ')']);
+        let is_param = core.contains('_')
+            && core.chars().all(|c| c.is_ascii_lowercase() || c == '_')
+            && !core.starts_with('_');
+        if is_param {
+            out.push_str("--");
+            out.push_str(&core.replace('_', "-"));
+            out.push_str(&word[core.len()..]);
+        } else {
+            out.push_str(word);
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod option_word_tests {
+    use super::in_option_words;
+
+    #[test]
+    fn generator_messages_use_option_names() {
+        assert_eq!(
+            in_option_words("synth sphere_array: solid_fraction 0.9 exceeds close packing"),
+            "synth sphere-array: --solid-fraction 0.9 exceeds close packing"
+        );
+        assert_eq!(
+            in_option_words("synth foam: cell_size must lie between 4 and 4"),
+            "synth foam: --cell-size must lie between 4 and 4"
+        );
     }
 }

@@ -385,6 +385,14 @@ pub fn solve(
     // The loop always stops after a completed step pair (window and cap are even).
     let steps = lattice.steps;
     let (density, velocity) = lattice.into_macroscopic(&params);
+    if history.is_empty() {
+        // Stopped before the first check (a step cap below the window): take the peak speed
+        // from the final field so the Mach number is still reported.
+        max_speed = velocity
+            .iter()
+            .map(|u| ((u[0] * u[0] + u[1] * u[1] + u[2] * u[2]) as f64).sqrt())
+            .fold(0.0, f64::max);
+    }
     Ok(FlowField {
         density,
         velocity,
