@@ -2,38 +2,12 @@
 //! generated in a temporary folder (sphere cells and slits, 16³ or smaller), solved with a
 //! loose tolerance to stay fast.
 mod common;
-use assert_cmd::Command;
+use common::cli::{run_in, write_mask_with};
 use common::{slit, sphere_cell};
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant, SystemTime};
 use voxperm::geometry::{Axis, PoreMask};
 use voxperm::volume::{TiffCompression, Volume, write_tiff_stack};
-
-fn voxperm() -> Command {
-    Command::cargo_bin("voxperm").expect("binary")
-}
-
-fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
-    let p = dir.join(name);
-    write_tiff_stack(
-        &p,
-        &Volume::from_mask(mask, 0, 255),
-        TiffCompression::None,
-        None,
-    )
-    .expect("write");
-    p
-}
-
-/// Runs voxperm in `cwd` and returns (exit code, stdout, stderr).
-fn run_in(cwd: &Path, args: &[&str]) -> (i32, String, String) {
-    let out = voxperm().current_dir(cwd).args(args).output().expect("run");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into(),
-        String::from_utf8_lossy(&out.stderr).into(),
-    )
-}
 
 const FAST: [&str; 5] = ["--periodic", "--tolerance", "1e-5", "--voxel-size", "2um"];
 
@@ -464,4 +438,8 @@ fn report_reads_single_estimate_results_too() {
     let (code, _, stderr) = run_in(dir.path(), &["report", "cell.json"]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("--out"), "{stderr}");
+}
+
+fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
+    write_mask_with(dir, name, mask, TiffCompression::None)
 }

@@ -2,38 +2,11 @@
 //! a temporary folder. Every failure case checks the exit code, a one-line message naming the
 //! problem, and that no output file was left behind.
 mod common;
-use assert_cmd::Command;
+use common::cli::{run, write_mask_with};
 use common::{hostile_header, slit, sphere_cell};
 use std::path::{Path, PathBuf};
 use voxperm::geometry::{Axis, PoreMask};
 use voxperm::volume::{TiffCompression, Volume, write_tiff_stack};
-
-fn voxperm() -> Command {
-    Command::cargo_bin("voxperm").expect("binary")
-}
-
-fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
-    let p = dir.join(name);
-    write_tiff_stack(
-        &p,
-        &Volume::from_mask(mask, 0, 255),
-        TiffCompression::Lzw,
-        None,
-    )
-    .expect("write");
-    p
-}
-
-/// Runs voxperm and returns (exit code, stdout, stderr), printing all on failure.
-fn run(args: &[&str]) -> (i32, String, String) {
-    let out = voxperm().args(args).output().expect("run");
-    let code = out.status.code().unwrap_or(-1);
-    (
-        code,
-        String::from_utf8_lossy(&out.stdout).into(),
-        String::from_utf8_lossy(&out.stderr).into(),
-    )
-}
 
 /// Asserts a failure: exit code, one line on stderr containing every `needle`, no JSON left.
 fn assert_fails(args: &[&str], code: i32, needles: &[&str], json: &Path) {
@@ -438,4 +411,8 @@ fn threshold_and_crop_on_a_grey_image() {
     // --threshold without --pore is refused before reading.
     let (code, _, stderr) = run(&["estimate", p.to_str().unwrap(), "--threshold", "5"]);
     assert_eq!(code, 2, "{stderr}");
+}
+
+fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
+    write_mask_with(dir, name, mask, TiffCompression::Lzw)
 }

@@ -2,23 +2,10 @@
 //! and what its JSON says; one seed gives one file, byte for byte; the voxel size survives the
 //! round trip into `estimate`'s reader; bad options fail with exit code 2, one line, no file.
 
-use assert_cmd::Command;
+mod common;
+use common::cli::run;
 use std::path::{Path, PathBuf};
 use voxperm::volume::{ReadLimits, Segmentation, VoxelData, load, segment};
-
-fn voxperm() -> Command {
-    Command::cargo_bin("voxperm").expect("binary")
-}
-
-/// Runs voxperm and returns (exit code, stdout, stderr).
-fn run(args: &[&str]) -> (i32, String, String) {
-    let out = voxperm().args(args).output().expect("run");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into(),
-        String::from_utf8_lossy(&out.stderr).into(),
-    )
-}
 
 /// Runs `synth` with `args` writing `name` (and `name.json`) in `dir`; asserts success and
 /// returns the paths and stdout.

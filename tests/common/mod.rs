@@ -2,6 +2,8 @@
 //! periodic solve.
 #![allow(dead_code)]
 
+pub mod cli;
+
 use voxperm::analysis::{AxisFlow, analyse};
 use voxperm::geometry::{Axis, PoreMask};
 use voxperm::lbm::{BoundaryMode, Domain, Silent, SolverSettings, hydraulic_diameter, solve};
