@@ -7,10 +7,7 @@ use super::units::{lattice_to_m2, m2_to_md};
 use crate::geometry::connectivity::percolating;
 use crate::geometry::{Axis, PoreMask};
 use crate::lbm::solver::CheckPoint;
-use crate::lbm::{
-    BoundaryMode, Domain, Ends, FlowField, Progress, Sides, SolverSettings, hydraulic_diameter,
-    solve,
-};
+use crate::lbm::{BoundaryMode, Domain, Ends, FlowField, Progress, Sides, SolverSettings, solve};
 use crate::{Error, Result};
 
 /// What to compute and how.
@@ -118,7 +115,7 @@ pub fn estimate_axis(
     let domain = Domain::build(&perc.mask, axis, cfg.mode, cfg.max_memory_bytes)?;
     drop(perc);
     let field = solve(&domain, axis, &cfg.solver, progress)?;
-    let flow = analyse(&domain, &field, axis, hydraulic_diameter(&domain));
+    let flow = analyse(&domain, &field, axis);
     let k = flow.permeability;
     let k_m2 = cfg.voxel_size_m.map(|dx| lattice_to_m2(k, dx));
     let mut note = None;

@@ -33,12 +33,7 @@ pub struct AxisFlow {
 /// g_eff = g − Δp/L (DESIGN.md §2; e.g. Pan, Luo & Miller 2006, Computers & Fluids 35, 898).
 /// In periodic and mirrored domains the mean pressure gradient vanishes; with buffer ends it is
 /// measured between the two buffer slices next to the sample.
-pub fn analyse(
-    domain: &Domain,
-    field: &FlowField,
-    axis: Axis,
-    hydraulic_diameter: f64,
-) -> AxisFlow {
+pub fn analyse(domain: &Domain, field: &FlowField, axis: Axis) -> AxisFlow {
     let a = axis.index();
     let sample_voxels = domain.sample_shape.iter().product::<usize>() as f64;
     let mut sum_u = [0.0f64; 3];
@@ -69,7 +64,7 @@ pub fn analyse(
     let column = superficial.map(|u| field.viscosity * u / effective_force);
     let porosity = fluid_in_sample as f64 / sample_voxels;
     let reynolds = if porosity > 0.0 {
-        (superficial[a] / porosity).abs() * hydraulic_diameter / field.viscosity
+        (superficial[a] / porosity).abs() * field.hydraulic_diameter / field.viscosity
     } else {
         0.0
     };

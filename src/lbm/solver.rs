@@ -159,7 +159,11 @@ impl SolverSettings {
 /// Re = u_mean d_h / ν = g d_h³ / (32 ν²) above [`TARGET_REYNOLDS`], so large pores stay in
 /// creeping flow too.
 pub fn auto_force(domain: &Domain, nu: f64, target_speed: f64) -> f64 {
-    let dh = hydraulic_diameter(domain);
+    force_for_diameter(hydraulic_diameter(domain), nu, target_speed)
+}
+
+/// [`auto_force`] for a known hydraulic diameter `dh` (voxels).
+fn force_for_diameter(dh: f64, nu: f64, target_speed: f64) -> f64 {
     let by_speed = 16.0 * nu * target_speed / (dh * dh);
     let by_reynolds = 32.0 * nu * nu * TARGET_REYNOLDS / (dh * dh * dh);
     by_speed.min(by_reynolds)
@@ -185,7 +189,11 @@ pub const AUTO_TAU_CONSTANT: f64 = 1.0 / 3.0;
 /// not k (measured drift 0.06 % between τ = 0.6 and τ = 1 on a 128³ pack). Clamped to
 /// [`AUTO_TAU_RANGE`].
 pub fn auto_tau(domain: &Domain) -> f64 {
-    let dh = hydraulic_diameter(domain);
+    tau_for_diameter(domain, hydraulic_diameter(domain))
+}
+
+/// [`auto_tau`] for a known hydraulic diameter `dh` (voxels).
+fn tau_for_diameter(domain: &Domain, dh: f64) -> f64 {
     let l = *domain.shape.iter().max().unwrap_or(&1) as f64;
     let nu = AUTO_TAU_CONSTANT * dh * dh / l;
     (0.5 + nu / CS2).clamp(AUTO_TAU_RANGE.0, AUTO_TAU_RANGE.1)
@@ -264,6 +272,9 @@ pub struct FlowField {
     pub tau: f64,
     pub viscosity: f64,
     pub tau_minus: f64,
+    /// Hydraulic diameter 4 V_pore / A_wall of the solver grid, voxels (see
+    /// [`hydraulic_diameter`]).
+    pub hydraulic_diameter: f64,
     pub steps: usize,
     pub converged: bool,
     pub residual: f64,
@@ -288,10 +299,13 @@ pub fn solve(
             "the solver grid has no fluid nodes".into(),
         ));
     }
+    // One pass over the walls serves the automatic τ, the automatic force and the Reynolds
+    // number reported afterwards.
+    let dh = hydraulic_diameter(domain);
     let resolved;
     let settings = if settings.auto_tau {
         resolved = SolverSettings {
-            tau: auto_tau(domain),
+            tau: tau_for_diameter(domain, dh),
             auto_tau: false,
             ..settings.clone()
         };
@@ -303,7 +317,7 @@ pub fn solve(
     let tau_m = settings.tau_minus();
     let g = settings
         .force
-        .unwrap_or_else(|| auto_force(domain, nu, settings.target_speed));
+        .unwrap_or_else(|| force_for_diameter(dh, nu, settings.target_speed));
     let mut force = [0.0; 3];
     force[direction.index()] = g;
     let params = KernelParams {
@@ -400,6 +414,7 @@ pub fn solve(
         tau: settings.tau,
         viscosity: nu,
         tau_minus: tau_m,
+        hydraulic_diameter: dh,
         steps,
         converged,
         residual,

@@ -6,7 +6,7 @@ pub mod cli;
 
 use voxperm::analysis::{AxisFlow, analyse};
 use voxperm::geometry::{Axis, PoreMask};
-use voxperm::lbm::{BoundaryMode, Domain, Silent, SolverSettings, hydraulic_diameter, solve};
+use voxperm::lbm::{BoundaryMode, Domain, Silent, SolverSettings, solve};
 
 /// Solves a mask with the given boundary mode and force direction and returns the Darcy summary.
 pub fn solve_mask(mask: &PoreMask, axis: Axis, mode: BoundaryMode, s: &SolverSettings) -> AxisFlow {
@@ -17,7 +17,7 @@ pub fn solve_mask(mask: &PoreMask, axis: Axis, mode: BoundaryMode, s: &SolverSet
         "not converged after {} steps (residual {})",
         field.steps, field.residual
     );
-    analyse(&domain, &field, axis, hydraulic_diameter(&domain))
+    analyse(&domain, &field, axis)
 }
 
 /// Periodic solve with the default settings but a tight tolerance.
