@@ -132,23 +132,8 @@ pub fn permeability_porosity(d: &PermeabilityPorosity) -> Result<String> {
             .map_err(plot_error)?
             .label("Kozeny–Carman φ³/(5 S²) of the sample")
             .legend(|(x, y)| TriangleMarker::new((x + 9, y), 6, BLACK));
-        for (a, pts) in d.simulated.iter().enumerate() {
-            if pts.is_empty() {
-                continue;
-            }
-            let colour = AXIS_COLOURS[a];
-            c.draw_series(pts.iter().map(|&p| Circle::new(p, 5, colour.filled())))
-                .map_err(plot_error)?
-                .label(format!("simulated, flow along {}", Axis::ALL[a]))
-                .legend(move |(x, y)| Circle::new((x + 9, y), 5, colour.filled()));
-        }
-        c.configure_series_labels()
-            .position(SeriesLabelPosition::UpperLeft)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK.mix(0.3))
-            .label_font((FONT, 12))
-            .draw()
-            .map_err(plot_error)
+        axis_points(&mut c, &d.simulated, "simulated, flow along")?;
+        legend(&mut c, SeriesLabelPosition::UpperLeft)
     })
 }
 
@@ -196,13 +181,7 @@ pub fn permeability_bars(names: &[String], k: &[[Option<f64>; 3]], unit: &str) -
                     Rectangle::new([(x, y - 5), (x + 12, y + 5)], colour.filled())
                 });
         }
-        c.configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK.mix(0.3))
-            .label_font((FONT, 12))
-            .draw()
-            .map_err(plot_error)?;
+        legend(&mut c, SeriesLabelPosition::UpperRight)?;
         // Sample names under their groups (plotters' own tick labels fall on round numbers).
         for (i, name) in names.iter().enumerate() {
             let (px, py) = c.backend_coord(&(i as f64, k0));
@@ -246,24 +225,43 @@ pub fn tortuosity_porosity(points: &[Vec<(f64, f64)>; 3]) -> Result<String> {
             .y_desc("hydraulic tortuosity Σ|u| / Σu_axis (–)")
             .draw()
             .map_err(plot_error)?;
-        for (a, pts) in points.iter().enumerate() {
-            if pts.is_empty() {
-                continue;
-            }
-            let colour = AXIS_COLOURS[a];
-            c.draw_series(pts.iter().map(|&p| Circle::new(p, 5, colour.filled())))
-                .map_err(plot_error)?
-                .label(format!("flow along {}", Axis::ALL[a]))
-                .legend(move |(x, y)| Circle::new((x + 9, y), 5, colour.filled()));
-        }
-        c.configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK.mix(0.3))
-            .label_font((FONT, 12))
-            .draw()
-            .map_err(plot_error)
+        axis_points(&mut c, points, "flow along")?;
+        legend(&mut c, SeriesLabelPosition::UpperRight)
     })
+}
+
+/// One series of dots per flow axis (axis colours), labelled "`label` x" etc.; empty axes are
+/// left out of the plot and the legend.
+fn axis_points<'a, DB: DrawingBackend + 'a, CT: CoordTranslate<From = (f64, f64)>>(
+    c: &mut ChartContext<'a, DB, CT>,
+    points: &[Vec<(f64, f64)>; 3],
+    label: &str,
+) -> Result<()> {
+    for (a, pts) in points.iter().enumerate() {
+        if pts.is_empty() {
+            continue;
+        }
+        let colour = AXIS_COLOURS[a];
+        c.draw_series(pts.iter().map(|&p| Circle::new(p, 5, colour.filled())))
+            .map_err(plot_error)?
+            .label(format!("{label} {}", Axis::ALL[a]))
+            .legend(move |(x, y)| Circle::new((x + 9, y), 5, colour.filled()));
+    }
+    Ok(())
+}
+
+/// The legend box every plot uses.
+fn legend<'a, DB: DrawingBackend + 'a, CT: CoordTranslate>(
+    c: &mut ChartContext<'a, DB, CT>,
+    position: SeriesLabelPosition,
+) -> Result<()> {
+    c.configure_series_labels()
+        .position(position)
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK.mix(0.3))
+        .label_font((FONT, 12))
+        .draw()
+        .map_err(plot_error)
 }
 
 /// Distribution of local speeds over the fluid nodes, in % of the nodes per bin.
