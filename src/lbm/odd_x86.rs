@@ -78,8 +78,17 @@ pub unsafe fn odd_block<const SCATTER: bool>(
             any_neighbours(domain, g, k, &mut m);
         }
         let mut fluid = [zero; Q];
+        let mut walls = zero;
         for j in 1..Q {
-            fluid[j] = _mm256_andnot_si256(_mm256_cmpeq_epi32(m[j], solid), ones);
+            let wall = _mm256_cmpeq_epi32(m[j], solid);
+            walls = _mm256_or_si256(walls, wall);
+            fluid[j] = _mm256_andnot_si256(wall, ones);
+        }
+        // A block in one x-row whose 18 neighbouring stretches are all fluid: each stretch is
+        // eight consecutive nodes (nodes are numbered in voxel order), so the gathers and
+        // scatters become plain vector loads and stores.
+        if run && _mm256_testz_si256(walls, walls) == 1 {
+            return interior_block(base, n, k, &m, col);
         }
 
         // f_i comes from slot i of the node at x − c_i = x + c_ī, or (bounce-back) from slot ī
@@ -130,6 +139,44 @@ pub unsafe fn odd_block<const SCATTER: bool>(
             }
             each_direction!(write);
         }
+        u
+    }
+}
+
+/// The odd step for a block whose neighbours in every direction are eight consecutive fluid
+/// nodes starting at lane 0 of `m[j]`: same slots as the gather/scatter path, moved with
+/// vector loads and stores.
+#[inline(always)]
+unsafe fn interior_block(
+    base: *mut f32,
+    n: usize,
+    k: usize,
+    m: &[__m256i; Q],
+    col: &CollideConsts,
+) -> [Lanes; 3] {
+    unsafe {
+        let mut at = [0usize; Q];
+        for j in 1..Q {
+            at[j] = _mm256_cvtsi256_si32(m[j]) as u32 as usize;
+        }
+        let mut d = [[0.0f32; LANES]; Q];
+        _mm256_storeu_ps(d[0].as_mut_ptr(), _mm256_loadu_ps(base.add(k)));
+        macro_rules! read {
+            ($i:literal) => {{
+                let o = opposite($i);
+                let v = _mm256_loadu_ps(base.add(o * n + at[o]));
+                _mm256_storeu_ps(d[$i].as_mut_ptr(), v);
+            }};
+        }
+        each_direction!(read);
+        let u = collide_lanes(&mut d, col);
+        _mm256_storeu_ps(base.add(k), _mm256_loadu_ps(d[0].as_ptr()));
+        macro_rules! write {
+            ($i:literal) => {{
+                _mm256_storeu_ps(base.add($i * n + at[$i]), _mm256_loadu_ps(d[$i].as_ptr()));
+            }};
+        }
+        each_direction!(write);
         u
     }
 }

@@ -340,10 +340,11 @@ pub fn solve(
     let mut max_speed = 0.0;
     let started = Instant::now();
     while lattice.steps < max_steps {
-        let sums = lattice.step(domain, &params);
-        if !lattice.steps.is_multiple_of(window) {
+        if !(lattice.steps + 1).is_multiple_of(window) {
+            lattice.advance(domain, &params);
             continue;
         }
+        let sums = lattice.step(domain, &params);
         let step = lattice.steps;
         max_speed = sums.u2_max.sqrt();
         if !sums.u2_max.is_finite() || sums.u.iter().any(|v| !v.is_finite()) {
