@@ -115,13 +115,13 @@ pub unsafe fn odd_block<const SCATTER: bool>(
         // Post-collision f_i goes to slot i of the node at x + c_i, or to slot ī of the node
         // itself (it bounces back there).
         _mm256_storeu_ps(base.add(k), _mm256_loadu_ps(d[0].as_ptr()));
-        let mut mi = [[0u32; LANES]; Q];
-        for j in 1..Q {
-            _mm256_storeu_si256(mi[j].as_mut_ptr() as *mut __m256i, m[j]);
-        }
         if SCATTER {
-            scatter_block(base, n, k, &mi, &d);
+            scatter_block(base, n, k, &m, &d);
         } else {
+            let mut mi = [[0u32; LANES]; Q];
+            for j in 1..Q {
+                _mm256_storeu_si256(mi[j].as_mut_ptr() as *mut __m256i, m[j]);
+            }
             macro_rules! write {
                 ($i:literal) => {{
                     let o = opposite($i);
@@ -193,7 +193,7 @@ unsafe fn scatter_block(
     base: *mut f32,
     n: usize,
     k: usize,
-    mi: &[[u32; LANES]; Q],
+    m: &[__m256i; Q],
     d: &[Lanes; Q],
 ) {
     unsafe {
@@ -201,10 +201,9 @@ unsafe fn scatter_block(
         macro_rules! write {
             ($i:literal) => {{
                 let o = opposite($i);
-                let m = _mm256_loadu_si256(mi[$i].as_ptr() as *const __m256i);
                 let v = _mm256_loadu_ps(d[$i].as_ptr());
-                let keep = _mm256_cmpneq_epi32_mask(m, solid);
-                _mm256_mask_i32scatter_ps(base.add($i * n), keep, m, v, 4);
+                let keep = _mm256_cmpneq_epi32_mask(m[$i], solid);
+                _mm256_mask_i32scatter_ps(base.add($i * n), keep, m[$i], v, 4);
                 _mm256_mask_storeu_ps(base.add(o * n + k), !keep, v);
             }};
         }
