@@ -287,6 +287,51 @@ fn bad_inputs_fail_with_one_clear_line_and_no_output() {
     );
 }
 
+/// The result records the memory model's peak beside the measured resident peak, and on a
+/// sample large enough that the program's own few MiB do not dominate, the two agree (the
+/// model: src/lbm/memory.rs; measured: VmHWM, restarted before the sample is read).
+#[test]
+fn result_records_predicted_and_measured_memory() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(96, 30.0));
+    let json = dir.path().join("out.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--periodic",
+        "--max-steps",
+        "4",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(stdout.contains("MiB predicted"), "{stdout}");
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let m = &v["memory"];
+    let ax = &v["axes"][0];
+    let grid: u64 = ax["grid_shape"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|n| n.as_u64().unwrap())
+        .product();
+    let fluid = ax["fluid_nodes"].as_u64().unwrap();
+    let predicted = m["predicted_peak_bytes"].as_u64().unwrap();
+    assert_eq!(
+        predicted,
+        voxperm::lbm::memory::solve_peak_bytes(96 * 96 * 96, grid, fluid)
+    );
+    if let Some(measured) = m["measured_peak_bytes"].as_u64() {
+        let ratio = measured as f64 / predicted as f64;
+        if m["measured_over"] == "sample" {
+            assert!((0.9..1.1).contains(&ratio), "measured/predicted {ratio:.3}");
+        } else {
+            assert_eq!(m["measured_over"], "process");
+        }
+    }
+}
+
 #[test]
 fn describe_reports_geometry_without_solving() {
     let dir = tempfile::tempdir().unwrap();

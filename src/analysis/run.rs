@@ -10,7 +10,7 @@ use super::{Estimate, EstimateConfig, estimate};
 use crate::geometry::surface::{Surface, measure_surface};
 use crate::geometry::{Axis, PoreMask};
 use crate::lbm::{BoundaryMode, Progress, SolverSettings};
-use crate::report::json::GeometryRecord;
+use crate::report::json::{GeometryRecord, MemoryRecord};
 use crate::report::result::SampleResult;
 use crate::report::snapshot::FlowSnapshot;
 use crate::report::vtk::write_vti_with_limit;
@@ -75,6 +75,7 @@ pub fn run_sample(
         .build()
         .map_err(|e| Error::Internal(format!("cannot start {threads} worker threads: {e}")))?;
     pool.install(|| {
+        let per_sample = crate::lbm::memory::reset_peak_rss();
         let sample = load_sample(spec, &ReadLimits::new(cfg.max_memory_bytes))?;
         check_mask(&sample.mask, spec)?;
         let voxel_m = sample.voxel_size.as_ref().map(|v| v.metres);
@@ -112,7 +113,7 @@ pub fn run_sample(
         drop(kept);
 
         warnings.extend(solve_warnings(&est, porosity, &surface));
-        let report = EstimateReport::new(
+        let mut report = EstimateReport::new(
             &est,
             input_record(spec, &sample)?,
             settings(cfg, threads),
@@ -120,6 +121,7 @@ pub fn run_sample(
             voxel_m,
             warnings,
         );
+        report.memory = Some(memory_record(&sample, &est, per_sample));
         Ok(SampleResult {
             name: None,
             batch_key: None,
@@ -127,6 +129,27 @@ pub fn run_sample(
             flow_snapshot,
         })
     })
+}
+
+/// The memory model's peak for this sample (as `describe` prints it) beside the measured one.
+fn memory_record(sample: &Sample, est: &Estimate, per_sample: bool) -> MemoryRecord {
+    use crate::lbm::memory::{bytes_per_sample, load_peak_bytes, peak_rss_bytes, solve_peak_bytes};
+    let file_voxels = sample.file_shape.iter().map(|&n| n as u64).product::<u64>();
+    let load = load_peak_bytes(file_voxels, bytes_per_sample(&sample.sample_type));
+    let solve = est
+        .axes
+        .iter()
+        .map(|a| {
+            let grid = a.grid_shape.iter().map(|&n| n as u64).product::<u64>();
+            solve_peak_bytes(sample.mask.len() as u64, grid, a.fluid_nodes as u64)
+        })
+        .max()
+        .unwrap_or(0);
+    MemoryRecord {
+        predicted_peak_bytes: load.max(solve),
+        measured_peak_bytes: peak_rss_bytes(),
+        measured_over: if per_sample { "sample" } else { "process" },
+    }
 }
 
 /// Keeping the first field costs its node map, coordinates, velocity and density (4 B per grid

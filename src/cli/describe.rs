@@ -9,7 +9,7 @@ use std::path::PathBuf;
 use voxperm::analysis::units::{lattice_to_m2, m2_to_md};
 use voxperm::geometry::Axis;
 use voxperm::geometry::describe::summarize;
-use voxperm::lbm::memory::{load_peak_bytes, solve_peak_bytes};
+use voxperm::lbm::memory::{bytes_per_sample, load_peak_bytes, solve_peak_bytes};
 use voxperm::lbm::{BoundaryMode, Domain, Ends, Sides};
 use voxperm::volume::sample::{SampleSpec, load_sample};
 use voxperm::volume::{ReadLimits, write_atomically};
@@ -58,11 +58,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     let g = summarize(mask, sides_periodic, ends_periodic)?;
     let dx = sample.voxel_size.as_ref().map(|v| v.metres);
     let voxels = mask.len() as u64;
-    let bytes_per_sample = match sample.sample_type.as_str() {
-        "u8" => 1,
-        "u16" => 2,
-        _ => 4,
-    };
+    let bytes_per_sample = bytes_per_sample(&sample.sample_type);
 
     let mut out = String::new();
     let [nx, ny, nz] = g.shape;

@@ -79,6 +79,23 @@ pub fn return_large_blocks_promptly() {
     }
 }
 
+/// Bytes of one voxel value of a sample type ("u8", "u16", "f32"): what [`load_peak_bytes`]
+/// needs.
+pub fn bytes_per_sample(sample_type: &str) -> u64 {
+    match sample_type {
+        "u8" => 1,
+        "u16" => 2,
+        _ => 4,
+    }
+}
+
+/// Starts the peak resident counter ([`peak_rss_bytes`]) anew from the current resident size,
+/// so a batch can measure each sample on its own: writing "5" to /proc/self/clear_refs (Linux
+/// 4.0 and later, proc(5)). Returns false where that is not available.
+pub fn reset_peak_rss() -> bool {
+    std::fs::write("/proc/self/clear_refs", "5").is_ok()
+}
+
 /// Peak resident memory of this process so far (VmHWM of /proc/self/status), bytes; `None`
 /// where the system does not report it.
 pub fn peak_rss_bytes() -> Option<u64> {
@@ -91,6 +108,37 @@ pub fn peak_rss_bytes() -> Option<u64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// After a reset the counter restarts at the current size: a large block touched and
+    /// freed before the reset no longer counts. (Margins of 64 MiB and more, so that other
+    /// tests of this binary allocating meanwhile cannot decide the outcome.)
+    #[test]
+    fn reset_restarts_the_peak() {
+        if !reset_peak_rss() {
+            return; // not Linux, or /proc not writable: nothing to check here
+        }
+        let before = peak_rss_bytes().unwrap();
+        {
+            let block = vec![1u8; 256 << 20];
+            assert!(
+                std::hint::black_box(&block)
+                    .iter()
+                    .step_by(4096)
+                    .all(|&b| b == 1)
+            );
+        }
+        let high = peak_rss_bytes().unwrap();
+        assert!(
+            high >= before + (192 << 20),
+            "256 MiB touched: {before} -> {high}"
+        );
+        assert!(reset_peak_rss());
+        let after = peak_rss_bytes().unwrap();
+        assert!(
+            after + (128 << 20) < high,
+            "reset left the peak at {after} (was {high})"
+        );
+    }
 
     /// The solve stage dominates a porous sample, the domain build a nearly solid one.
     #[test]

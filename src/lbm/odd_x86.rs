@@ -189,13 +189,7 @@ unsafe fn interior_block(
 /// AVX-512F+VL available; the indices are those the block's neighbour search produced.
 #[target_feature(enable = "avx2,avx512f,avx512vl")]
 #[inline(never)]
-unsafe fn scatter_block(
-    base: *mut f32,
-    n: usize,
-    k: usize,
-    m: &[__m256i; Q],
-    d: &[Lanes; Q],
-) {
+unsafe fn scatter_block(base: *mut f32, n: usize, k: usize, m: &[__m256i; Q], d: &[Lanes; Q]) {
     unsafe {
         let solid = _mm256_set1_epi32(SOLID as i32);
         macro_rules! write {

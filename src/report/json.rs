@@ -67,6 +67,19 @@ pub struct GeometryRecord {
 }
 
 /// The whole result of one `estimate` run.
+/// Memory of the run: what `voxperm describe` predicts beforehand against what the process
+/// used.
+#[derive(Debug, Clone, Serialize)]
+pub struct MemoryRecord {
+    /// Largest stage of the memory model (reading the file, or building and solving an axis).
+    pub predicted_peak_bytes: u64,
+    /// Peak resident set (VmHWM), where the system reports it.
+    pub measured_peak_bytes: Option<u64>,
+    /// "sample": the counter was restarted before this sample was read; "process": it counts
+    /// from the start of the program (the system could not restart it).
+    pub measured_over: &'static str,
+}
+
 #[derive(Debug, Clone, Serialize)]
 pub struct EstimateReport {
     pub version: &'static str,
@@ -98,6 +111,8 @@ pub struct EstimateReport {
     pub axes: Vec<AxisEstimate>,
     pub warnings: Vec<String>,
     pub units: Value,
+    /// Filled in by the caller that measured it (`analysis::run_sample`).
+    pub memory: Option<MemoryRecord>,
     pub caution: &'static str,
 }
 
@@ -182,6 +197,7 @@ impl EstimateReport {
                 "specific_surface_per_voxel": "1/voxel",
                 "specific_surface_per_m": "1/m",
             }),
+            memory: None,
             caution: CAUTION,
         }
     }

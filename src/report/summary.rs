@@ -176,6 +176,22 @@ pub fn render(r: &EstimateReport) -> String {
         "{} steps in {:.2} s, {:.1} MLUPS",
         r.steps, r.wall_seconds, r.mlups
     );
+    if let Some(m) = &r.memory {
+        let mib = |b: u64| b as f64 / (1u64 << 20) as f64;
+        let _ = match m.measured_peak_bytes {
+            Some(b) => writeln!(
+                s,
+                "memory      peak {:.1} MiB resident ({:.1} MiB predicted)",
+                mib(b),
+                mib(m.predicted_peak_bytes)
+            ),
+            None => writeln!(
+                s,
+                "memory      {:.1} MiB predicted peak",
+                mib(m.predicted_peak_bytes)
+            ),
+        };
+    }
     for w in &r.warnings {
         let _ = writeln!(s, "warning: {w}");
     }
