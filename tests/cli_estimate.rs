@@ -318,10 +318,13 @@ fn result_records_predicted_and_measured_memory() {
         .product();
     let fluid = ax["fluid_nodes"].as_u64().unwrap();
     let predicted = m["predicted_peak_bytes"].as_u64().unwrap();
+    // The solve stage, plus the coarse flow a warm start (the default) keeps meanwhile.
     assert_eq!(
         predicted,
         voxperm::lbm::memory::solve_peak_bytes(96 * 96 * 96, grid, fluid)
+            + voxperm::lbm::warm::kept_bytes(grid, fluid)
     );
+    assert!(!v["axes"][0]["warm_start"].is_null());
     if let Some(measured) = m["measured_peak_bytes"].as_u64() {
         let ratio = measured as f64 / predicted as f64;
         if m["measured_over"] == "sample" {

@@ -7,7 +7,11 @@ use super::units::{lattice_to_m2, m2_to_md};
 use crate::geometry::connectivity::percolating;
 use crate::geometry::{Axis, PoreMask};
 use crate::lbm::solver::CheckPoint;
-use crate::lbm::{BoundaryMode, Domain, Ends, FlowField, Progress, Sides, SolverSettings, solve};
+use crate::lbm::warm::solve_coarse;
+use crate::lbm::{
+    BoundaryMode, Domain, Ends, FlowField, Progress, Sides, Silent, SolverSettings, WarmStart,
+    solve_from,
+};
 use crate::{Error, Result};
 
 /// What to compute and how.
@@ -51,6 +55,8 @@ pub struct AxisEstimate {
     pub grid_shape: [usize; 3],
     /// Convergence record: one entry per check window.
     pub history: Vec<CheckPoint>,
+    /// The coarse solve this axis started from (`--warm-start`), if one ran.
+    pub warm_start: Option<WarmStart>,
     /// Anything the user should know about this axis.
     pub note: Option<String>,
 }
@@ -112,13 +118,31 @@ pub fn estimate_axis(
             axis: axis.letter(),
         });
     }
+    // The coarse flow is solved before the fine grid exists, so the two never hold
+    // populations at the same time.
+    let mut note = None;
+    let coarse = if cfg.solver.warm_start {
+        solve_coarse(
+            &perc.mask,
+            axis,
+            cfg.mode,
+            &cfg.solver,
+            cfg.max_memory_bytes,
+            &mut Silent,
+        )
+        .unwrap_or_else(|why| {
+            note = Some(format!("started from rest: {why}"));
+            None
+        })
+    } else {
+        None
+    };
     let domain = Domain::build(&perc.mask, axis, cfg.mode, cfg.max_memory_bytes)?;
     drop(perc);
-    let field = solve(&domain, axis, &cfg.solver, progress)?;
+    let field = solve_from(&domain, axis, &cfg.solver, progress, coarse)?;
     let flow = analyse(&domain, &field, axis);
     let k = flow.permeability;
     let k_m2 = cfg.voxel_size_m.map(|dx| lattice_to_m2(k, dx));
-    let mut note = None;
     if !field.converged {
         note = Some(if field.residual.is_finite() {
             format!(
@@ -149,6 +173,7 @@ pub fn estimate_axis(
         fluid_nodes: domain.fluid_nodes(),
         grid_shape: domain.shape,
         history: field.history.clone(),
+        warm_start: field.warm_start,
         note,
         flow: Some(flow),
     };
@@ -240,6 +265,7 @@ fn no_path(axis: Axis, cfg: &EstimateConfig) -> AxisEstimate {
         fluid_nodes: 0,
         grid_shape: [0; 3],
         history: Vec::new(),
+        warm_start: None,
         note: Some(format!(
             "no percolating pore path along {axis}: k = 0 (no solve was run)"
         )),

@@ -121,7 +121,7 @@ pub fn run_sample(
             voxel_m,
             warnings,
         );
-        report.memory = Some(memory_record(&sample, &est, per_sample));
+        report.memory = Some(memory_record(&sample, &est, per_sample, cfg.solver.warm_start));
         Ok(SampleResult {
             name: None,
             batch_key: None,
@@ -132,8 +132,9 @@ pub fn run_sample(
 }
 
 /// The memory model's peak for this sample (as `describe` prints it) beside the measured one.
-fn memory_record(sample: &Sample, est: &Estimate, per_sample: bool) -> MemoryRecord {
+fn memory_record(sample: &Sample, est: &Estimate, per_sample: bool, warm: bool) -> MemoryRecord {
     use crate::lbm::memory::{bytes_per_sample, load_peak_bytes, peak_rss_bytes, solve_peak_bytes};
+    use crate::lbm::warm::kept_bytes;
     let file_voxels = sample.file_shape.iter().map(|&n| n as u64).product::<u64>();
     let load = load_peak_bytes(file_voxels, bytes_per_sample(&sample.sample_type));
     let solve = est
@@ -141,7 +142,10 @@ fn memory_record(sample: &Sample, est: &Estimate, per_sample: bool) -> MemoryRec
         .iter()
         .map(|a| {
             let grid = a.grid_shape.iter().map(|&n| n as u64).product::<u64>();
-            solve_peak_bytes(sample.mask.len() as u64, grid, a.fluid_nodes as u64)
+            let fluid = a.fluid_nodes as u64;
+            // The coarse flow of a warm start lives until the fine lattice is initialised.
+            let coarse = if warm { kept_bytes(grid, fluid) } else { 0 };
+            solve_peak_bytes(sample.mask.len() as u64, grid, fluid) + coarse
         })
         .max()
         .unwrap_or(0);

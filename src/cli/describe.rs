@@ -10,6 +10,7 @@ use voxperm::analysis::units::{lattice_to_m2, m2_to_md};
 use voxperm::geometry::Axis;
 use voxperm::geometry::describe::summarize;
 use voxperm::lbm::memory::{bytes_per_sample, load_peak_bytes, solve_peak_bytes};
+use voxperm::lbm::warm::kept_bytes;
 use voxperm::lbm::{BoundaryMode, Domain, Ends, Sides};
 use voxperm::volume::sample::{SampleSpec, load_sample};
 use voxperm::volume::{ReadLimits, write_atomically};
@@ -92,7 +93,8 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         let grid = Domain::grid_shape(g.shape, axis, mode);
         let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
         let fluid = fluid_nodes(ap.connected_pore_voxels as u64, g.shape, axis, mode);
-        let need = solve_peak_bytes(voxels, grid_voxels, fluid)
+        // With the default warm start the coarse flow is kept while the full grid is built.
+        let need = (solve_peak_bytes(voxels, grid_voxels, fluid) + kept_bytes(grid_voxels, fluid))
             .max(load_peak_bytes(voxels, bytes_per_sample));
         let _ = writeln!(
             out,

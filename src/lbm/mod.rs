@@ -11,9 +11,11 @@ pub mod memory;
 #[cfg(target_arch = "x86_64")]
 mod odd_x86;
 pub mod solver;
+pub mod warm;
 
 pub use boundary::{BoundaryMode, Ends, Sides};
 pub use domain::Domain;
 pub use solver::{
-    Collision, FlowField, Progress, Silent, SolverSettings, auto_tau, hydraulic_diameter, solve,
+    Collision, FlowField, Progress, Silent, SolverSettings, WarmStart, auto_tau,
+    hydraulic_diameter, solve, solve_from,
 };

@@ -4,6 +4,7 @@
 use super::d3q19::CS2;
 use super::domain::Domain;
 use super::kernel::{KernelParams, Lattice};
+use super::warm::{CoarseFlow, initial_lattice};
 use crate::geometry::Axis;
 use crate::{Error, Result};
 use std::time::Instant;
@@ -68,6 +69,9 @@ pub struct SolverSettings {
     /// Choose τ per solve from the geometry for the fewest steps ([`auto_tau`]); `tau` is then
     /// not used. TRT only (BGK's k depends on τ).
     pub auto_tau: bool,
+    /// Start each solve from the flow on the 2× coarsened mask instead of rest (see
+    /// `lbm::warm`); the convergence criterion is unchanged.
+    pub warm_start: bool,
 }
 
 impl Default for SolverSettings {
@@ -83,6 +87,7 @@ impl Default for SolverSettings {
             target_speed: 2e-3,
             max_mach: 0.1,
             auto_tau: false,
+            warm_start: true,
         }
     }
 }
@@ -284,14 +289,37 @@ pub struct FlowField {
     pub wall_seconds: f64,
     /// Million fluid-node updates per second.
     pub mlups: f64,
+    /// The coarse solve this one started from, if any.
+    pub warm_start: Option<WarmStart>,
 }
 
-/// Runs the solver to steady state with the force along `direction`.
+/// What the coarse solve of a warm start cost (its time is included in the fine field's
+/// `wall_seconds`).
+#[derive(Debug, Clone, Copy, serde::Serialize)]
+pub struct WarmStart {
+    pub coarse_nodes: usize,
+    pub coarse_steps: usize,
+    pub coarse_seconds: f64,
+}
+
+/// Runs the solver to steady state with the force along `direction`, from rest.
 pub fn solve(
     domain: &Domain,
     direction: Axis,
     settings: &SolverSettings,
     progress: &mut dyn Progress,
+) -> Result<FlowField> {
+    solve_from(domain, direction, settings, progress, None)
+}
+
+/// [`solve`] from the flow of a coarse grid (`lbm::warm`) when one is given; it is dropped
+/// as soon as the fine lattice holds its state.
+pub fn solve_from(
+    domain: &Domain,
+    direction: Axis,
+    settings: &SolverSettings,
+    progress: &mut dyn Progress,
+    start: Option<CoarseFlow>,
 ) -> Result<FlowField> {
     settings.validate()?;
     if domain.fluid_nodes() == 0 {
@@ -331,14 +359,22 @@ pub fn solve(
     let cs = CS2.sqrt();
 
     progress.on_start(&direction.to_string(), domain.fluid_nodes());
-    let mut lattice = Lattice::at_rest(domain);
+    let started = Instant::now();
+    let warm = start.as_ref().map(|c| WarmStart {
+        coarse_nodes: c.domain.fluid_nodes(),
+        coarse_steps: c.field.steps,
+        coarse_seconds: c.field.wall_seconds,
+    });
+    let mut lattice = match start {
+        Some(c) => initial_lattice(domain, &c, force, nu),
+        None => Lattice::at_rest(domain),
+    };
     let mut history: Vec<CheckPoint> = Vec::new();
     let mut prev: Option<[f64; 3]> = None;
     let mut below = 0;
     let mut converged = false;
     let mut residual = f64::INFINITY;
     let mut max_speed = 0.0;
-    let started = Instant::now();
     while lattice.steps < max_steps {
         if !(lattice.steps + 1).is_multiple_of(window) {
             lattice.advance(domain, &params);
@@ -395,7 +431,9 @@ pub fn solve(
             below = 0;
         }
     }
-    let wall = started.elapsed().as_secs_f64();
+    let fine_seconds = started.elapsed().as_secs_f64();
+    let coarse_updates = warm.map_or(0.0, |w| (w.coarse_nodes * w.coarse_steps) as f64);
+    let wall = fine_seconds + warm.map_or(0.0, |w| w.coarse_seconds);
     progress.on_finish();
     // The loop always stops after a completed step pair (window and cap are even).
     let steps = lattice.steps;
@@ -423,10 +461,11 @@ pub fn solve(
         max_speed,
         wall_seconds: wall,
         mlups: if wall > 0.0 {
-            domain.fluid_nodes() as f64 * steps as f64 / wall / 1e6
+            (domain.fluid_nodes() as f64 * steps as f64 + coarse_updates) / wall / 1e6
         } else {
             0.0
         },
+        warm_start: warm,
     })
 }
 
