@@ -93,6 +93,13 @@ pub fn render(r: &EstimateReport) -> String {
             a.steps,
             if a.converged { "yes" } else { "NO" }
         );
+        if let Some(w) = &a.warm_start {
+            let _ = writeln!(
+                s,
+                "      started from the 2x coarsened image: {} steps on {} nodes, {:.2} s",
+                w.coarse_steps, w.coarse_nodes, w.coarse_seconds
+            );
+        }
         if let Some(n) = &a.note {
             let _ = writeln!(s, "      note: {n}");
         }
