@@ -191,6 +191,21 @@ fn bad_inputs_fail_with_one_clear_line_and_no_output() {
         &["good.tif", "7"],
         &json,
     );
+    // Negative values reach voxperm's own checks, which name the option and the rule (not a
+    // parser complaint about an unknown "-1" flag).
+    for (opt, val, needle) in [
+        ("--tau", "-1", "0.5"),
+        ("--tolerance", "-1e-3", "positive"),
+        ("--voxel-size", "-5um", "positive"),
+        ("--force", "-1e-4", "positive"),
+    ] {
+        assert_fails(&["estimate", g, opt, val, "--json", j], 2, &[needle], &json);
+        let (_, _, stderr) = run(&["estimate", g, opt, val]);
+        assert!(
+            !stderr.contains("unexpected argument"),
+            "{opt} {val}: {stderr}"
+        );
+    }
     // A unit that is not a length (usage error, exit 2).
     assert_fails(
         &["estimate", g, "--voxel-size", "5kg", "--json", j],

@@ -14,13 +14,13 @@ use voxperm::{Error, Result};
 #[derive(Args, Debug, Clone)]
 pub struct InputArgs {
     /// Voxel edge length with a unit, e.g. 2.5um, 800nm, 0.01mm (overrides the file's own).
-    #[arg(long, value_name = "LENGTH")]
+    #[arg(long, value_name = "LENGTH", allow_hyphen_values = true)]
     pub voxel_size: Option<String>,
     /// Voxel value that marks pore space (repeatable or comma-separated; default 0).
     #[arg(long, value_name = "N", value_delimiter = ',')]
     pub pore_label: Vec<u32>,
     /// Grey-value threshold for unsegmented images (use with --pore).
-    #[arg(long, value_name = "T")]
+    #[arg(long, value_name = "T", allow_hyphen_values = true)]
     pub threshold: Option<f64>,
     /// Which side of --threshold is pore.
     #[arg(long, value_name = "below|above", requires = "threshold")]
@@ -61,10 +61,10 @@ pub struct SolverArgs {
     #[arg(long)]
     pub cold_start: bool,
     /// TRT magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½).
-    #[arg(long, default_value_t = 3.0 / 16.0, value_name = "LAMBDA")]
+    #[arg(long, default_value_t = 3.0 / 16.0, value_name = "LAMBDA", allow_hyphen_values = true)]
     pub magic: f64,
     /// Steady when the mean velocity changes by less than this per step (relative).
-    #[arg(long, default_value_t = 1e-6)]
+    #[arg(long, default_value_t = 1e-6, allow_hyphen_values = true)]
     pub tolerance: f64,
     /// Give up (unconverged, flagged) after this many steps.
     #[arg(long, default_value_t = 200_000)]
@@ -73,7 +73,7 @@ pub struct SolverArgs {
     #[arg(long, default_value_t = 100, value_name = "STEPS")]
     pub check_every: usize,
     /// Body force in lattice units (default: chosen from the pore size for a slow, Stokes flow).
-    #[arg(long, value_name = "G")]
+    #[arg(long, value_name = "G", allow_hyphen_values = true)]
     pub force: Option<f64>,
     /// Worker threads (default: all cores).
     #[arg(long)]

@@ -129,6 +129,17 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     if let Some(dx) = dx {
         let _ = writeln!(out, "            {:.4e} per m", s.specific_surface / dx);
     }
+    // Pore voxels on the box faces meet solid across the face only in a periodic cell; with
+    // closed sides or mirrored ends those faces are not counted (as in `estimate`).
+    let _ = writeln!(
+        out,
+        "            faces across the box boundary {}",
+        if sides_periodic && ends_periodic {
+            "counted (periodic cell)"
+        } else {
+            "not counted (boundary mode is not fully periodic)"
+        }
+    );
     match g.kc_estimate_voxel2 {
         Some(kc) => {
             let phys = dx.map_or(String::new(), |dx| {

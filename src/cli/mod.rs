@@ -28,8 +28,10 @@ struct Cli {
 #[derive(Subcommand, Debug)]
 enum Command {
     /// Simulate flow through a sample and report its permeability.
+    #[command(allow_negative_numbers = true)]
     Estimate(estimate::EstimateArgs),
     /// Geometry only: porosity, connectivity, surface, Kozeny–Carman, memory a solve needs.
+    #[command(allow_negative_numbers = true)]
     Describe(describe::DescribeArgs),
     /// Many samples from a manifest or a folder: one result file each, a summary table, resumable.
     ///
@@ -38,14 +40,19 @@ enum Command {
     /// not finish sooner and would need more memory. A rerun into the same --out folder skips
     /// samples whose input file and settings are unchanged. Exit code 5 when some samples failed.
     /// The manifest format is described in docs/batch-manifest.md.
+    #[command(allow_negative_numbers = true)]
     Batch(batch::BatchArgs),
     /// Comparison report (HTML and/or Markdown with SVG plots) over result files.
+    #[command(allow_negative_numbers = true)]
     Report(report::ReportArgs),
     /// Build a synthetic structure (sphere arrays and packs, fibre mats, foams, channels).
+    #[command(allow_negative_numbers = true)]
     Synth(synth::SynthArgs),
     /// Run the built-in reference suite against published and analytic results.
+    #[command(allow_negative_numbers = true)]
     Check(check::CheckArgs),
     /// Kernel speed against measured memory bandwidth (the roofline), on generated structures.
+    #[command(allow_negative_numbers = true)]
     Bench(bench::BenchArgs),
 }
 

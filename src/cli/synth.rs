@@ -30,22 +30,31 @@ pub struct SynthArgs {
 #[derive(Subcommand, Debug)]
 pub enum Kind {
     /// Spheres on a simple, body- or face-centred cubic lattice.
+    #[command(allow_negative_numbers = true)]
     SphereArray(SphereArrayArgs),
     /// Parallel cylinders on a square or hexagonal lattice.
+    #[command(allow_negative_numbers = true)]
     CylinderArray(CylinderArrayArgs),
     /// A random pack of non-overlapping spheres (a bead pack).
+    #[command(allow_negative_numbers = true)]
     SpherePack(SpherePackArgs),
     /// Random overlapping spheres, optionally stretched into ellipsoids (sintered grains).
+    #[command(allow_negative_numbers = true)]
     OverlappingSpheres(OverlappingArgs),
     /// A mat of random straight fibres.
+    #[command(allow_negative_numbers = true)]
     Fibres(FibresArgs),
     /// An open-cell foam.
+    #[command(allow_negative_numbers = true)]
     Foam(FoamArgs),
     /// A periodic stack of plane slits.
+    #[command(allow_negative_numbers = true)]
     Slits(SlitsArgs),
     /// One straight square duct.
+    #[command(allow_negative_numbers = true)]
     Duct(DuctArgs),
     /// One straight circular tube.
+    #[command(allow_negative_numbers = true)]
     Tube(TubeArgs),
 }
 

@@ -51,11 +51,15 @@ pub fn canonical_json(v: &Value) -> String {
     }
 }
 
-/// The resume key: SHA-256 over a format tag, the input's content hash and the canonical
-/// settings, hex-encoded.
+/// The resume key: SHA-256 over a format tag, the voxperm version, the input's content hash and
+/// the canonical settings, hex-encoded. The version is in it because a new version may give a
+/// different answer for the same settings (e.g. a changed default start), and one results folder
+/// should not mix versions silently.
 pub fn batch_key(input_sha256: &str, settings: &Value) -> String {
     let mut h = Sha256::new();
-    h.update(b"voxperm batch key 1\n");
+    h.update(b"voxperm batch key 2\n");
+    h.update(crate::VERSION.as_bytes());
+    h.update(b"\n");
     h.update(input_sha256.as_bytes());
     h.update(b"\n");
     h.update(canonical_json(settings).as_bytes());
