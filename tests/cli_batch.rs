@@ -323,6 +323,23 @@ fn manifest_mistakes_stop_the_batch_before_any_solve() {
             "{text}: results folder made"
         );
     }
+    // A source that does not exist is a missing input (exit 3), named, with no results folder.
+    let (got, _, stderr) = batch(dir.path(), "nosuch", "out", &[]);
+    assert_eq!(got, 3, "{stderr}");
+    assert!(
+        stderr.contains("nosuch") && stderr.contains("no such file or folder"),
+        "{stderr}"
+    );
+    assert!(!dir.path().join("out").exists());
+    // A report over a folder without result files names the folder.
+    std::fs::create_dir(dir.path().join("empty")).unwrap();
+    let (got, _, stderr) = run_in(dir.path(), &["report", "empty", "--out", "r.html"]);
+    assert_eq!(got, 2, "{stderr}");
+    assert!(
+        stderr.contains("empty") && stderr.contains("no result files"),
+        "{stderr}"
+    );
+    assert!(!dir.path().join("r.html").exists());
     // A huge file given as manifest is refused by its size, before it is read.
     let big = std::fs::File::create(dir.path().join("big.toml")).unwrap();
     big.set_len(1 << 30).unwrap();

@@ -121,7 +121,7 @@ pub fn run_sample(
             voxel_m,
             warnings,
         );
-        report.memory = Some(memory_record(&sample, &est, per_sample, cfg.solver.warm_start));
+        report.memory = Some(memory_record(&sample, &est, per_sample, cfg, keep));
         Ok(SampleResult {
             name: None,
             batch_key: None,
@@ -131,26 +131,53 @@ pub fn run_sample(
     })
 }
 
-/// The memory model's peak for this sample (as `describe` prints it) beside the measured one.
-fn memory_record(sample: &Sample, est: &Estimate, per_sample: bool, warm: bool) -> MemoryRecord {
-    use crate::lbm::memory::{bytes_per_sample, load_peak_bytes, peak_rss_bytes, solve_peak_bytes};
+/// The memory model's peak for this sample (as `describe` prints it for one solve) beside the
+/// measured one. Stages: reading the file; each solve (plus the coarse flow of a warm start, and
+/// the first axis's field when it is kept through the later solves); writing the VTK file
+/// beside the kept field.
+fn memory_record(
+    sample: &Sample,
+    est: &Estimate,
+    per_sample: bool,
+    cfg: &RunConfig,
+    kept_first: bool,
+) -> MemoryRecord {
+    use crate::lbm::memory::{
+        BASE_BYTES, MASK, bytes_per_sample, load_peak_bytes, peak_rss_bytes, solve_peak_bytes,
+    };
     use crate::lbm::warm::kept_bytes;
     let file_voxels = sample.file_shape.iter().map(|&n| n as u64).product::<u64>();
     let load = load_peak_bytes(file_voxels, bytes_per_sample(&sample.sample_type));
+    let grid = |a: &super::AxisEstimate| a.grid_shape.iter().map(|&n| n as u64).product::<u64>();
+    // Kept first field: node map, coordinates, density and velocity.
+    let kept = est
+        .axes
+        .first()
+        .filter(|_| kept_first)
+        .map_or(0, |a| 4 * grid(a) + 22 * a.fluid_nodes as u64);
     let solve = est
         .axes
         .iter()
-        .map(|a| {
-            let grid = a.grid_shape.iter().map(|&n| n as u64).product::<u64>();
-            let fluid = a.fluid_nodes as u64;
+        .enumerate()
+        .map(|(i, a)| {
+            let (grid, fluid) = (grid(a), a.fluid_nodes as u64);
             // The coarse flow of a warm start lives until the fine lattice is initialised.
-            let coarse = if warm { kept_bytes(grid, fluid) } else { 0 };
-            solve_peak_bytes(sample.mask.len() as u64, grid, fluid) + coarse
+            let coarse = if cfg.solver.warm_start {
+                kept_bytes(grid, fluid)
+            } else {
+                0
+            };
+            let earlier = if i > 0 { kept } else { 0 };
+            solve_peak_bytes(sample.mask.len() as u64, grid, fluid) + coarse + earlier
         })
         .max()
         .unwrap_or(0);
+    let vtk = cfg.vtk.as_ref().map_or(0, |v| {
+        let writer = crate::report::vtk::memory_estimate(sample.mask.shape(), v.stride);
+        BASE_BYTES + MASK * sample.mask.len() as u64 + kept + writer.unwrap_or(0)
+    });
     MemoryRecord {
-        predicted_peak_bytes: load.max(solve),
+        predicted_peak_bytes: load.max(solve).max(vtk),
         measured_peak_bytes: peak_rss_bytes(),
         measured_over: if per_sample { "sample" } else { "process" },
     }
@@ -196,7 +223,7 @@ fn solve_warnings(est: &Estimate, porosity: f64, surface: &Surface) -> Vec<Strin
         }
         if !ax.converged {
             warnings.push(format!(
-                "axis {}: did not converge; the value is not final",
+                "axis {}: did not converge; the value is not final (raise --max-steps)",
                 ax.axis
             ));
         }
@@ -220,8 +247,8 @@ fn solve_warnings(est: &Estimate, porosity: f64, surface: &Surface) -> Vec<Strin
 fn settings(cfg: &RunConfig, threads: usize) -> Settings {
     Settings {
         lattice: "D3Q19",
-        tau_minus: cfg.solver.tau_minus(),
-        viscosity_lattice: cfg.solver.viscosity(),
+        tau_minus: (!cfg.solver.auto_tau).then(|| cfg.solver.tau_minus()),
+        viscosity_lattice: (!cfg.solver.auto_tau).then(|| cfg.solver.viscosity()),
         solver: cfg.solver.clone(),
         boundary: cfg.mode,
         sides: cfg.mode.sides.to_string(),

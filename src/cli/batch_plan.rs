@@ -181,6 +181,9 @@ pub fn from_manifest(
     axis: &str,
     boundary: &BoundaryArgs,
 ) -> Result<Vec<Planned>> {
+    if !manifest.exists() {
+        return Err(Error::bad_input(manifest, "no such file or folder"));
+    }
     if manifest.extension().and_then(|e| e.to_str()) != Some("toml") {
         return Err(Error::Usage(format!(
             "{}: a batch needs a folder of samples or a .toml manifest (for one sample use voxperm estimate)",

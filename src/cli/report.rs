@@ -42,6 +42,13 @@ pub fn run(a: ReportArgs) -> Result<i32> {
         }
     }
     let (entries, failed) = collect(&a.inputs)?;
+    if entries.is_empty() && failed.is_empty() {
+        let names: Vec<String> = a.inputs.iter().map(|p| p.display().to_string()).collect();
+        return Err(Error::Usage(format!(
+            "{}: no result files (*.json written by voxperm estimate or batch) to report",
+            names.join(", ")
+        )));
+    }
     let doc = build(&a.title, &entries, failed)?;
     if let Some(p) = &a.out {
         write_text(p, &html::render(&doc))?;

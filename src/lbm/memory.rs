@@ -27,7 +27,7 @@ use super::domain::{BYTES_PER_FLUID_NODE, BYTES_PER_VOXEL};
 pub const BASE_BYTES: u64 = 4 << 20;
 
 /// Bytes per sample voxel of the pore mask the caller keeps through all solves.
-const MASK: u64 = 1;
+pub const MASK: u64 = 1;
 /// Bytes per fluid node of the coordinates alone (the domain before populations exist).
 const COORDS: u64 = 6;
 

@@ -397,11 +397,20 @@ pub fn solve_from(
         if max_speed / cs > settings.max_mach {
             return Err(Error::Diverged {
                 step,
-                reason: format!(
-                    "peak Mach number {:.3} exceeds {}; the body force is too strong for this geometry (lower --force or leave it out)",
-                    max_speed / cs,
-                    settings.max_mach
-                ),
+                reason: if settings.force.is_some() {
+                    format!(
+                        "peak Mach number {:.3} exceeds {}; the body force is too strong for this geometry (lower --force or leave it out)",
+                        max_speed / cs,
+                        settings.max_mach
+                    )
+                } else {
+                    format!(
+                        "peak Mach number {:.3} exceeds {} with the automatic force at τ = {}; keep --tau between about 0.55 and 2",
+                        max_speed / cs,
+                        settings.max_mach,
+                        settings.tau
+                    )
+                },
             });
         }
         let mean = sums.u.map(|v| v / voxels);

@@ -389,13 +389,27 @@ fn methods(entries: &[Entry]) -> Vec<String> {
 fn method_text(r: &ResultView) -> String {
     let s = &r.settings;
     let v = &s.solver;
-    let collision = match v.collision.as_str() {
-        "trt" => format!(
-            "two-relaxation-time (TRT) collision, τ⁺ = {}, τ⁻ = {:.4}, magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½) = {}",
-            v.tau, s.tau_minus, v.magic
+    let collision = match (v.collision.as_str(), s.tau_minus) {
+        ("trt", Some(tm)) if !v.auto_tau => format!(
+            "two-relaxation-time (TRT) collision, τ⁺ = {}, τ⁻ = {tm:.4}, magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½) = {}",
+            v.tau, v.magic
+        ),
+        // Per-sample τ values would make equal settings read differently; they are in the
+        // result files (`axes[].tau`).
+        ("trt", _) => format!(
+            "two-relaxation-time (TRT) collision with τ⁺ chosen per solve from the pore size and grid length (automatic; each result file records the τ⁺ used), τ⁻ from the magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½) = {}",
+            v.magic
         ),
         _ => format!("single-relaxation-time (BGK) collision, τ = {}", v.tau),
     };
+    let start = if v.warm_start {
+        "Each solve started from the flow on the image coarsened 2× along every axis."
+    } else {
+        "Each solve started from rest."
+    };
+    let viscosity = s
+        .viscosity_lattice
+        .map_or("per solve, from τ⁺".to_string(), |nu| format!("{nu:.4}"));
     let force = match v.force {
         Some(g) => format!("a body force g = {g:e} (lattice units) given by the user"),
         None => format!(
@@ -406,9 +420,8 @@ fn method_text(r: &ResultView) -> String {
     };
     let axes: Vec<String> = r.axes.iter().map(|a| a.axis.to_string()).collect();
     format!(
-        "Lattice {} (19 velocities) with {collision}, lattice viscosity ν = {:.4}, driven by {force}, half-way bounce-back at pore walls. Sample faces: sides {}, ends {}. Flow along {}. Steady when the relative change of the mean velocity per step stayed below {:e} over two check windows of {} steps, at most {} steps. Connectivity: {}.",
+        "Lattice {} (19 velocities) with {collision}, lattice viscosity ν = {viscosity}, driven by {force}, half-way bounce-back at pore walls. Sample faces: sides {}, ends {}. Flow along {}. {start} Steady when the relative change of the mean velocity per step stayed below {:e} over two check windows of {} steps, at most {} steps. Connectivity: {}.",
         s.lattice,
-        s.viscosity_lattice,
         s.sides,
         s.ends,
         axes.join(", "),

@@ -40,8 +40,9 @@ pub struct InputRecord {
 pub struct Settings {
     pub lattice: &'static str,
     pub solver: SolverSettings,
-    pub tau_minus: f64,
-    pub viscosity_lattice: f64,
+    /// From the configured τ; `null` with the automatic τ (each solve's τ is `axes[].tau`).
+    pub tau_minus: Option<f64>,
+    pub viscosity_lattice: Option<f64>,
     pub boundary: BoundaryMode,
     pub sides: String,
     pub ends: String,

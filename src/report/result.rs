@@ -92,6 +92,12 @@ pub struct SolverView {
     pub force: Option<f64>,
     /// Peak speed the automatic force aims at, lattice units.
     pub target_speed: Option<f64>,
+    /// τ chosen per solve (files before it existed: fixed τ).
+    #[serde(default)]
+    pub auto_tau: bool,
+    /// Started from the coarsened image (files before it existed started from rest).
+    #[serde(default)]
+    pub warm_start: bool,
 }
 
 /// The run settings as recorded.
@@ -99,8 +105,9 @@ pub struct SolverView {
 pub struct SettingsView {
     pub lattice: String,
     pub solver: SolverView,
-    pub tau_minus: f64,
-    pub viscosity_lattice: f64,
+    /// `null` with the automatic τ.
+    pub tau_minus: Option<f64>,
+    pub viscosity_lattice: Option<f64>,
     pub sides: String,
     pub ends: String,
     pub connectivity: String,

@@ -47,15 +47,30 @@ pub fn render(r: &EstimateReport) -> String {
         }
     }
     let set = &r.settings;
+    let tau = match set.tau_minus {
+        Some(tm) if !set.solver.auto_tau => format!("tau {} (tau- {tm:.4})", set.solver.tau),
+        _ => {
+            let used: Vec<String> = r
+                .axes
+                .iter()
+                .filter(|a| a.percolates)
+                .map(|a| format!("{} {:.3}", a.axis, a.tau))
+                .collect();
+            format!("tau automatic ({})", used.join(", "))
+        }
+    };
     let _ = writeln!(
         s,
-        "solver      D3Q19 {}, tau {} (tau- {:.4}), sides {}, ends {}, tolerance {:.1e}",
+        "solver      D3Q19 {}, {tau}, sides {}, ends {}, tolerance {:.1e}, {}",
         set.solver.collision,
-        set.solver.tau,
-        set.tau_minus,
         set.sides,
         set.ends,
-        set.solver.tolerance
+        set.solver.tolerance,
+        if set.solver.warm_start {
+            "warm start"
+        } else {
+            "cold start"
+        }
     );
     let _ = writeln!(s, "porosity    {:.4}", r.porosity);
     if let Some(g) = &r.geometry {

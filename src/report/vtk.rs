@@ -361,10 +361,12 @@ fn check_destination(path: &Path) -> Result<()> {
         _ => Path::new("."),
     };
     if !folder.is_dir() {
-        return Err(out(format!(
-            "the folder {} does not exist",
-            folder.display()
-        )));
+        let what = if folder.exists() {
+            "is a file, not a folder"
+        } else {
+            "does not exist"
+        };
+        return Err(out(format!("the folder {} {what}", folder.display())));
     }
     Ok(())
 }

@@ -51,9 +51,14 @@ pub fn check_destination(path: &Path) -> Result<PathBuf> {
         _ => PathBuf::from("."),
     };
     if !folder.is_dir() {
+        let what = if folder.exists() {
+            "is a file, not a folder"
+        } else {
+            "does not exist"
+        };
         return Err(Error::Output {
             path: path.to_path_buf(),
-            msg: format!("the folder {} does not exist", folder.display()),
+            msg: format!("the folder {} {what}", folder.display()),
         });
     }
     if path.is_dir() {
