@@ -4,9 +4,9 @@
 //! fewer fine steps; where the sample is too small for a coarse grid it must start from rest.
 mod common;
 use common::rel;
-use voxperm::analysis::{EstimateConfig, analyse, estimate};
-use voxperm::geometry::Axis;
+use voxperm::analysis::{Estimate, EstimateConfig, analyse, estimate};
 use voxperm::geometry::synth::{PackMethod, PackParams, RadiusDist, sphere_pack};
+use voxperm::geometry::{Axis, PoreMask};
 use voxperm::lbm::warm::solve_coarse;
 use voxperm::lbm::{BoundaryMode, Domain, Ends, Sides, Silent, SolverSettings, solve, solve_from};
 
@@ -58,21 +58,28 @@ fn warm_start_keeps_k_in_fewer_fine_steps() {
     }
 }
 
+/// The periodic x estimate of `mask` started from rest and with the warm start.
+fn cold_and_warm(mask: &PoreMask) -> (Estimate, Estimate) {
+    let run = |warm_start| {
+        let cfg = EstimateConfig {
+            axes: vec![Axis::X],
+            mode: BoundaryMode::PERIODIC,
+            solver: SolverSettings {
+                warm_start,
+                ..SolverSettings::default()
+            },
+            max_memory_bytes: u64::MAX,
+            voxel_size_m: None,
+        };
+        estimate(mask, &cfg, &mut Silent, false).unwrap().0
+    };
+    (run(false), run(true))
+}
+
 #[test]
 fn too_small_for_a_coarse_grid_starts_from_rest() {
     let mask = common::sphere_cell(12, 4.0);
-    let cfg = |warm_start| EstimateConfig {
-        axes: vec![Axis::X],
-        mode: BoundaryMode::PERIODIC,
-        solver: SolverSettings {
-            warm_start,
-            ..SolverSettings::default()
-        },
-        max_memory_bytes: u64::MAX,
-        voxel_size_m: None,
-    };
-    let (cold, _) = estimate(&mask, &cfg(false), &mut Silent, false).unwrap();
-    let (warm, _) = estimate(&mask, &cfg(true), &mut Silent, false).unwrap();
+    let (cold, warm) = cold_and_warm(&mask);
     let (c, w) = (&cold.axes[0], &warm.axes[0]);
     assert!(w.warm_start.is_none());
     assert!(w.note.is_none(), "{:?}", w.note);
@@ -84,20 +91,8 @@ fn too_small_for_a_coarse_grid_starts_from_rest() {
 fn pores_too_thin_for_the_coarse_grid_start_from_rest_with_a_note() {
     // Tubes one voxel wide: every 2×2×2 cell of the coarse grid is at most a quarter pore, so
     // the coarsened image has no pore space and the solve must start cold, saying why.
-    let mask =
-        voxperm::geometry::PoreMask::from_fn([32, 16, 16], |_, y, z| y % 4 == 1 && z % 4 == 1);
-    let cfg = |warm_start| EstimateConfig {
-        axes: vec![Axis::X],
-        mode: BoundaryMode::PERIODIC,
-        solver: SolverSettings {
-            warm_start,
-            ..SolverSettings::default()
-        },
-        max_memory_bytes: u64::MAX,
-        voxel_size_m: None,
-    };
-    let (cold, _) = estimate(&mask, &cfg(false), &mut Silent, false).unwrap();
-    let (warm, _) = estimate(&mask, &cfg(true), &mut Silent, false).unwrap();
+    let mask = PoreMask::from_fn([32, 16, 16], |_, y, z| y % 4 == 1 && z % 4 == 1);
+    let (cold, warm) = cold_and_warm(&mask);
     let (c, w) = (&cold.axes[0], &warm.axes[0]);
     assert!(w.warm_start.is_none());
     let note = w.note.as_deref().unwrap_or("");
