@@ -340,6 +340,38 @@ fn result_records_predicted_and_measured_memory() {
             + voxperm::lbm::warm::kept_bytes(grid, fluid)
     );
     assert!(!v["axes"][0]["warm_start"].is_null());
+    // --max-memory is checked against that same figure before anything is allocated: one byte
+    // less is refused (exit 3, naming the need), the figure itself is accepted.
+    let refused = dir.path().join("refused.json");
+    let limit = |b: u64| format!("{b}B");
+    let (code, _, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--periodic",
+        "--max-steps",
+        "4",
+        "--max-memory",
+        &limit(predicted - 1),
+        "--json",
+        refused.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 3, "{stderr}");
+    assert!(
+        stderr.contains("needs") && stderr.contains("--max-memory"),
+        "{stderr}"
+    );
+    assert!(!refused.exists());
+    let (code, _, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--periodic",
+        "--max-steps",
+        "4",
+        "--max-memory",
+        &limit(predicted),
+        "-q",
+    ]);
+    assert_eq!(code, 0, "{stderr}");
     if let Some(measured) = m["measured_peak_bytes"].as_u64() {
         let ratio = measured as f64 / predicted as f64;
         if m["measured_over"] == "sample" {

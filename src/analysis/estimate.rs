@@ -6,8 +6,9 @@ use super::tensor::{TensorAnalysis, analyse_tensor};
 use super::units::{lattice_to_m2, m2_to_md};
 use crate::geometry::connectivity::percolating;
 use crate::geometry::{Axis, PoreMask};
+use crate::lbm::memory::solve_peak_bytes;
 use crate::lbm::solver::CheckPoint;
-use crate::lbm::warm::solve_coarse;
+use crate::lbm::warm::{kept_bytes, solve_coarse};
 use crate::lbm::{
     BoundaryMode, Domain, Ends, FlowField, Progress, Sides, Silent, SolverSettings, WarmStart,
     solve_from,
@@ -116,6 +117,32 @@ pub fn estimate_axis(
     if !perc.percolates {
         return Err(Error::NoPercolatingPath {
             axis: axis.letter(),
+        });
+    }
+    // The whole solve stage against the limit, before anything is allocated: the same figure
+    // `describe` prints and the result records (the domain build checks its own part again).
+    let grid = Domain::grid_shape(mask.shape(), axis, cfg.mode);
+    let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
+    let fluid = Domain::grid_fluid_nodes(
+        perc.connected_pore_voxels as u64,
+        mask.shape(),
+        axis,
+        cfg.mode,
+    );
+    let coarse_kept = if cfg.solver.warm_start {
+        kept_bytes(grid_voxels, fluid)
+    } else {
+        0
+    };
+    let need = solve_peak_bytes(mask.len() as u64, grid_voxels, fluid).saturating_add(coarse_kept);
+    if need > cfg.max_memory_bytes {
+        return Err(Error::TooLarge {
+            what: format!(
+                "the flow solve along {axis} on a {}x{}x{} grid with {fluid} fluid nodes",
+                grid[0], grid[1], grid[2]
+            ),
+            needed_bytes: need,
+            limit_bytes: cfg.max_memory_bytes,
         });
     }
     // The coarse flow is solved before the fine grid exists, so the two never hold

@@ -7,7 +7,6 @@ use serde_json::json;
 use std::fmt::Write as _;
 use std::path::PathBuf;
 use voxperm::analysis::units::{lattice_to_m2, m2_to_md};
-use voxperm::geometry::Axis;
 use voxperm::geometry::describe::summarize;
 use voxperm::lbm::memory::{bytes_per_sample, load_peak_bytes, solve_peak_bytes};
 use voxperm::lbm::warm::kept_bytes;
@@ -92,7 +91,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         let axis = ap.axis;
         let grid = Domain::grid_shape(g.shape, axis, mode);
         let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
-        let fluid = fluid_nodes(ap.connected_pore_voxels as u64, g.shape, axis, mode);
+        let fluid = Domain::grid_fluid_nodes(ap.connected_pore_voxels as u64, g.shape, axis, mode);
         // With the default warm start the coarse flow is kept while the full grid is built.
         let need = (solve_peak_bytes(voxels, grid_voxels, fluid) + kept_bytes(grid_voxels, fluid))
             .max(load_peak_bytes(voxels, bytes_per_sample));
@@ -176,15 +175,4 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     }
     print!("{out}");
     Ok(voxperm::error::exit::OK)
-}
-
-/// Fluid nodes of the solver grid: connected pores, doubled by a mirror, plus free buffer slices.
-fn fluid_nodes(connected: u64, shape: [usize; 3], axis: Axis, mode: BoundaryMode) -> u64 {
-    let a = axis.index();
-    let face = (shape[(a + 1) % 3] * shape[(a + 2) % 3]) as u64;
-    match mode.ends {
-        Ends::Periodic => connected,
-        Ends::Mirror => 2 * connected,
-        Ends::Buffer(n) => connected + 2 * n as u64 * face,
-    }
 }

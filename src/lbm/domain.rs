@@ -46,6 +46,23 @@ impl Domain {
             .saturating_add(fluid.saturating_mul(BYTES_PER_FLUID_NODE))
     }
 
+    /// Fluid nodes of the solver grid for a sample of `shape` whose percolating clusters hold
+    /// `connected` pore voxels: a mirror doubles them, buffer slices add free fluid.
+    pub fn grid_fluid_nodes(
+        connected: u64,
+        shape: [usize; 3],
+        axis: Axis,
+        mode: BoundaryMode,
+    ) -> u64 {
+        let a = axis.index();
+        let face = (shape[(a + 1) % 3] * shape[(a + 2) % 3]) as u64;
+        match mode.ends {
+            Ends::Periodic => connected,
+            Ends::Mirror => 2 * connected,
+            Ends::Buffer(n) => connected + 2 * n as u64 * face,
+        }
+    }
+
     /// The solver grid shape for a sample of `shape` flowing along `axis` under `mode`.
     pub fn grid_shape(shape: [usize; 3], axis: Axis, mode: BoundaryMode) -> [usize; 3] {
         let mut s = shape;
