@@ -99,3 +99,22 @@ fn pores_too_thin_for_the_coarse_grid_start_from_rest_with_a_note() {
     assert!(note.starts_with("started from rest: "), "note: {note}");
     assert_eq!(c.permeability_lattice, w.permeability_lattice);
 }
+
+#[test]
+fn cavities_joined_by_thin_throats_start_from_rest_at_once() {
+    // 12³ cavities joined along x by throats one voxel wide: the coarsened image keeps the
+    // cavities but no path between them, so the coarse solve must be skipped (not run to its
+    // step cap) and the solve must start from rest, saying why.
+    let cell = |c: usize| (2..14).contains(&(c % 16));
+    let mask = PoreMask::from_fn([64, 32, 32], |x, y, z| {
+        (cell(x) && cell(y) && cell(z)) || (y % 16 == 8 && z % 16 == 8)
+    });
+    let (cold, warm) = cold_and_warm(&mask);
+    let (c, w) = (&cold.axes[0], &warm.axes[0]);
+    assert!(c.converged && c.permeability_lattice > 0.0);
+    assert!(w.warm_start.is_none());
+    let note = w.note.as_deref().unwrap_or("");
+    assert!(note.contains("survives coarsening"), "note: {note}");
+    assert_eq!(c.permeability_lattice, w.permeability_lattice);
+    assert_eq!(c.steps, w.steps);
+}

@@ -129,8 +129,8 @@ pub fn estimate_axis(
         axis,
         cfg.mode,
     );
-    let coarse_kept = if cfg.solver.warm_start {
-        kept_bytes(grid_voxels, fluid)
+    let coarse_kept = if crate::lbm::warm::applies(mask.shape(), &cfg.solver) {
+        kept_bytes(grid, fluid)
     } else {
         0
     };

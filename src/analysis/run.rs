@@ -149,26 +149,25 @@ fn memory_record(
     let file_voxels = sample.file_shape.iter().map(|&n| n as u64).product::<u64>();
     let load = load_peak_bytes(file_voxels, bytes_per_sample(&sample.sample_type));
     let grid = |a: &super::AxisEstimate| a.grid_shape.iter().map(|&n| n as u64).product::<u64>();
-    // Kept first field: node map, coordinates, density and velocity.
     let kept = est
         .axes
         .first()
         .filter(|_| kept_first)
-        .map_or(0, |a| 4 * grid(a) + 22 * a.fluid_nodes as u64);
+        .map_or(0, |a| kept_field_bytes(grid(a), a.fluid_nodes as u64));
     let solve = est
         .axes
         .iter()
         .enumerate()
         .map(|(i, a)| {
-            let (grid, fluid) = (grid(a), a.fluid_nodes as u64);
+            let fluid = a.fluid_nodes as u64;
             // The coarse flow of a warm start lives until the fine lattice is initialised.
-            let coarse = if cfg.solver.warm_start {
-                kept_bytes(grid, fluid)
+            let coarse = if crate::lbm::warm::applies(sample.mask.shape(), &cfg.solver) {
+                kept_bytes(a.grid_shape, fluid)
             } else {
                 0
             };
             let earlier = if i > 0 { kept } else { 0 };
-            solve_peak_bytes(sample.mask.len() as u64, grid, fluid) + coarse + earlier
+            solve_peak_bytes(sample.mask.len() as u64, grid(a), fluid) + coarse + earlier
         })
         .max()
         .unwrap_or(0);
@@ -192,9 +191,23 @@ fn snapshot_fits(mask: &PoreMask, cfg: &RunConfig) -> bool {
     }
     let grid = crate::lbm::Domain::grid_shape(mask.shape(), cfg.axes[0], cfg.mode);
     let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
-    let kept = grid_voxels.saturating_mul(4 + 22);
+    // Bounds: every grid voxel a fluid node.
+    let kept = kept_field_bytes(grid_voxels, grid_voxels);
+    let coarse = if crate::lbm::warm::applies(mask.shape(), &cfg.solver) {
+        crate::lbm::warm::kept_bytes(grid, grid_voxels)
+    } else {
+        0
+    };
     let solve = crate::lbm::memory::solve_peak_bytes(mask.len() as u64, grid_voxels, grid_voxels);
-    kept.saturating_add(solve) <= cfg.max_memory_bytes
+    kept.saturating_add(solve).saturating_add(coarse) <= cfg.max_memory_bytes
+}
+
+/// A kept flow field: its node map (4 B per grid voxel) and per node coordinates, density and
+/// velocity (6 + 4 + 12 B).
+fn kept_field_bytes(grid_voxels: u64, fluid_nodes: u64) -> u64 {
+    grid_voxels
+        .saturating_mul(4)
+        .saturating_add(fluid_nodes.saturating_mul(22))
 }
 
 fn geometry_record(porosity: f64, s: &Surface, voxel_m: Option<f64>) -> GeometryRecord {

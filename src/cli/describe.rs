@@ -8,8 +8,9 @@ use std::fmt::Write as _;
 use std::path::PathBuf;
 use voxperm::analysis::units::{lattice_to_m2, m2_to_md};
 use voxperm::geometry::describe::summarize;
+use voxperm::lbm::SolverSettings;
 use voxperm::lbm::memory::{bytes_per_sample, load_peak_bytes, solve_peak_bytes};
-use voxperm::lbm::warm::kept_bytes;
+use voxperm::lbm::warm::{applies, kept_bytes};
 use voxperm::lbm::{BoundaryMode, Domain, Ends, Sides};
 use voxperm::volume::sample::{SampleSpec, load_sample};
 use voxperm::volume::{ReadLimits, write_atomically};
@@ -93,7 +94,12 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
         let fluid = Domain::grid_fluid_nodes(ap.connected_pore_voxels as u64, g.shape, axis, mode);
         // With the default warm start the coarse flow is kept while the full grid is built.
-        let need = (solve_peak_bytes(voxels, grid_voxels, fluid) + kept_bytes(grid_voxels, fluid))
+        let coarse = if applies(g.shape, &SolverSettings::default()) {
+            kept_bytes(grid, fluid)
+        } else {
+            0
+        };
+        let need = (solve_peak_bytes(voxels, grid_voxels, fluid) + coarse)
             .max(load_peak_bytes(voxels, bytes_per_sample));
         let _ = writeln!(
             out,

@@ -324,7 +324,7 @@ fn add_sums(s: &mut Sums, u: &[Lanes; 3], used: usize) {
 /// as solid, so interior and boundary nodes take the same path.
 ///
 /// # Safety
-/// `k + used <= n`, `used >= 1`.
+/// `k + used` is at most the node count, `used >= 1`; `n` is the slot stride.
 #[inline(always)]
 unsafe fn odd_slots(
     domain: &Domain,

@@ -48,7 +48,7 @@ pub struct SimdGrid {
 /// Gathers, collides and scatters nodes `k..k + LANES` of an odd step; returns u per lane.
 ///
 /// # Safety
-/// AVX2 (and with `SCATTER` AVX-512F+VL) must be available; `k + LANES <= n`; the grid has at
+/// AVX2 (and with `SCATTER` AVX-512F+VL) must be available; `k + LANES` is at most the node count (`n` is the slot stride); the grid has at
 /// most `i32::MAX` voxels and `n <= i32::MAX`, so every index fits a signed 32-bit lane.
 #[inline(always)]
 pub unsafe fn odd_block<const SCATTER: bool>(

@@ -330,6 +330,7 @@ pub fn solve_from(
     // One pass over the walls serves the automatic τ, the automatic force and the Reynolds
     // number reported afterwards.
     let dh = hydraulic_diameter(domain);
+    let automatic_tau = settings.auto_tau;
     let resolved;
     let settings = if settings.auto_tau {
         resolved = SolverSettings {
@@ -405,10 +406,15 @@ pub fn solve_from(
                     )
                 } else {
                     format!(
-                        "peak Mach number {:.3} exceeds {} with the automatic force at τ = {}; keep --tau between about 0.55 and 2",
+                        "peak Mach number {:.3} exceeds {} with the automatic force at τ = {}{}",
                         max_speed / cs,
                         settings.max_mach,
-                        settings.tau
+                        settings.tau,
+                        if automatic_tau {
+                            " (chosen by --auto-tau); try a fixed --tau of 1"
+                        } else {
+                            "; keep --tau between about 0.55 and 2"
+                        }
                     )
                 },
             });

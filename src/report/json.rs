@@ -67,7 +67,6 @@ pub struct GeometryRecord {
     pub kozeny_constant_assumed: f64,
 }
 
-/// The whole result of one `estimate` run.
 /// Memory of the run: what `voxperm describe` predicts beforehand against what the process
 /// used.
 #[derive(Debug, Clone, Serialize)]
@@ -81,6 +80,7 @@ pub struct MemoryRecord {
     pub measured_over: &'static str,
 }
 
+/// The whole result of one `estimate` run.
 #[derive(Debug, Clone, Serialize)]
 pub struct EstimateReport {
     pub version: &'static str,
