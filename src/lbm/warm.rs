@@ -94,8 +94,10 @@ pub fn applies(shape: [usize; 3], settings: &SolverSettings) -> bool {
 }
 
 /// Solves the coarsened mask, or says why not (`Err` carries the reason; the caller starts
-/// cold). `Ok(None)`: the sample is too small for a coarse grid to help (no note needed). The coarse solve uses the same collision and τ rule, its own automatic force, and a
-/// tolerance ten times looser: it only has to be close.
+/// cold with a note). `Ok(None)`: no coarse solve is planned ([`applies`] is false: the sample
+/// or the step cap is too small; no note needed). The coarse solve uses the same collision and
+/// τ rule, its own automatic force, a tolerance ten times looser (it only has to be close) and
+/// half the step cap.
 pub fn solve_coarse(
     mask: &PoreMask,
     axis: Axis,
