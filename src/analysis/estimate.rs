@@ -6,9 +6,8 @@ use super::tensor::{TensorAnalysis, analyse_tensor};
 use super::units::{lattice_to_m2, m2_to_md};
 use crate::geometry::connectivity::percolating;
 use crate::geometry::{Axis, PoreMask};
-use crate::lbm::memory::solve_peak_bytes;
 use crate::lbm::solver::CheckPoint;
-use crate::lbm::warm::{kept_bytes, solve_coarse};
+use crate::lbm::warm::{solve_coarse, solve_stage_bytes};
 use crate::lbm::{
     BoundaryMode, Domain, Ends, FlowField, Progress, Sides, Silent, SolverSettings, WarmStart,
     solve_from,
@@ -122,19 +121,13 @@ pub fn estimate_axis(
     // The whole solve stage against the limit, before anything is allocated: the same figure
     // `describe` prints and the result records (the domain build checks its own part again).
     let grid = Domain::grid_shape(mask.shape(), axis, cfg.mode);
-    let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
     let fluid = Domain::grid_fluid_nodes(
         perc.connected_pore_voxels as u64,
         mask.shape(),
         axis,
         cfg.mode,
     );
-    let coarse_kept = if crate::lbm::warm::applies(mask.shape(), &cfg.solver) {
-        kept_bytes(grid, fluid)
-    } else {
-        0
-    };
-    let need = solve_peak_bytes(mask.len() as u64, grid_voxels, fluid).saturating_add(coarse_kept);
+    let need = solve_stage_bytes(mask.shape(), grid, fluid, &cfg.solver);
     if need > cfg.max_memory_bytes {
         return Err(Error::TooLarge {
             what: format!(

@@ -142,10 +142,8 @@ fn memory_record(
     cfg: &RunConfig,
     kept_first: bool,
 ) -> MemoryRecord {
-    use crate::lbm::memory::{
-        BASE_BYTES, MASK, bytes_per_sample, load_peak_bytes, peak_rss_bytes, solve_peak_bytes,
-    };
-    use crate::lbm::warm::kept_bytes;
+    use crate::lbm::memory::{BASE_BYTES, MASK, bytes_per_sample, load_peak_bytes, peak_rss_bytes};
+    use crate::lbm::warm::solve_stage_bytes;
     let file_voxels = sample.file_shape.iter().map(|&n| n as u64).product::<u64>();
     let load = load_peak_bytes(file_voxels, bytes_per_sample(&sample.sample_type));
     let grid = |a: &super::AxisEstimate| a.grid_shape.iter().map(|&n| n as u64).product::<u64>();
@@ -159,15 +157,15 @@ fn memory_record(
         .iter()
         .enumerate()
         .map(|(i, a)| {
-            let fluid = a.fluid_nodes as u64;
-            // The coarse flow of a warm start lives until the fine lattice is initialised.
-            let coarse = if crate::lbm::warm::applies(sample.mask.shape(), &cfg.solver) {
-                kept_bytes(a.grid_shape, fluid)
-            } else {
-                0
-            };
+            // Includes the coarse flow of a warm start, alive until the fine lattice starts.
+            let stage = solve_stage_bytes(
+                sample.mask.shape(),
+                a.grid_shape,
+                a.fluid_nodes as u64,
+                &cfg.solver,
+            );
             let earlier = if i > 0 { kept } else { 0 };
-            solve_peak_bytes(sample.mask.len() as u64, grid(a), fluid) + coarse + earlier
+            stage + earlier
         })
         .max()
         .unwrap_or(0);
@@ -193,13 +191,8 @@ fn snapshot_fits(mask: &PoreMask, cfg: &RunConfig) -> bool {
     let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
     // Bounds: every grid voxel a fluid node.
     let kept = kept_field_bytes(grid_voxels, grid_voxels);
-    let coarse = if crate::lbm::warm::applies(mask.shape(), &cfg.solver) {
-        crate::lbm::warm::kept_bytes(grid, grid_voxels)
-    } else {
-        0
-    };
-    let solve = crate::lbm::memory::solve_peak_bytes(mask.len() as u64, grid_voxels, grid_voxels);
-    kept.saturating_add(solve).saturating_add(coarse) <= cfg.max_memory_bytes
+    let solve = crate::lbm::warm::solve_stage_bytes(mask.shape(), grid, grid_voxels, &cfg.solver);
+    kept.saturating_add(solve) <= cfg.max_memory_bytes
 }
 
 /// A kept flow field: its node map (4 B per grid voxel) and per node coordinates, density and

@@ -9,8 +9,8 @@ use std::path::PathBuf;
 use voxperm::analysis::units::{lattice_to_m2, m2_to_md};
 use voxperm::geometry::describe::summarize;
 use voxperm::lbm::SolverSettings;
-use voxperm::lbm::memory::{bytes_per_sample, load_peak_bytes, solve_peak_bytes};
-use voxperm::lbm::warm::{applies, kept_bytes};
+use voxperm::lbm::memory::{bytes_per_sample, load_peak_bytes};
+use voxperm::lbm::warm::solve_stage_bytes;
 use voxperm::lbm::{BoundaryMode, Domain, Ends, Sides};
 use voxperm::volume::sample::{SampleSpec, load_sample};
 use voxperm::volume::{ReadLimits, write_atomically};
@@ -91,15 +91,9 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     for ap in &g.axes {
         let axis = ap.axis;
         let grid = Domain::grid_shape(g.shape, axis, mode);
-        let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
         let fluid = Domain::grid_fluid_nodes(ap.connected_pore_voxels as u64, g.shape, axis, mode);
-        // With the default warm start the coarse flow is kept while the full grid is built.
-        let coarse = if applies(g.shape, &SolverSettings::default()) {
-            kept_bytes(grid, fluid)
-        } else {
-            0
-        };
-        let need = (solve_peak_bytes(voxels, grid_voxels, fluid) + coarse)
+        // With the default settings, so the warm start's coarse flow counts where it will run.
+        let need = solve_stage_bytes(g.shape, grid, fluid, &SolverSettings::default())
             .max(load_peak_bytes(voxels, bytes_per_sample));
         let _ = writeln!(
             out,

@@ -48,6 +48,26 @@ pub fn kept_bytes(grid: [usize; 3], fluid_nodes: u64) -> u64 {
         .saturating_add(coarse_nodes.saturating_mul(22))
 }
 
+/// Peak bytes of one solve stage for a sample of `sample_shape` on a grid of shape `grid` with
+/// `fluid_nodes` fluid nodes: [`solve_peak_bytes`](super::memory::solve_peak_bytes) plus the
+/// coarse flow when a warm start is planned ([`applies`]). The one figure `describe` prints,
+/// the result records and `--max-memory` is checked against.
+pub fn solve_stage_bytes(
+    sample_shape: [usize; 3],
+    grid: [usize; 3],
+    fluid_nodes: u64,
+    settings: &SolverSettings,
+) -> u64 {
+    let sample_voxels = sample_shape.iter().map(|&n| n as u64).product::<u64>();
+    let grid_voxels = grid.iter().map(|&n| n as u64).product::<u64>();
+    let coarse = if applies(sample_shape, settings) {
+        kept_bytes(grid, fluid_nodes)
+    } else {
+        0
+    };
+    super::memory::solve_peak_bytes(sample_voxels, grid_voxels, fluid_nodes).saturating_add(coarse)
+}
+
 /// The mask coarsened 2× along each axis: a coarse voxel is pore when at least half of the fine
 /// voxels it covers are (a cell at an odd edge covers fewer).
 pub fn coarsen(mask: &PoreMask) -> PoreMask {
