@@ -137,8 +137,8 @@ impl Domain {
             }
         };
 
-        let mut node_of_voxel = vec![SOLID; voxels as usize];
-        let mut coords = Vec::with_capacity(fluid as usize);
+        let mut node_of_voxel = super::pages::filled(voxels as usize, SOLID);
+        let mut coords = super::pages::with_capacity(fluid as usize);
         let mut v = 0usize;
         for z in 0..shape[2] {
             for y in 0..shape[1] {

@@ -401,7 +401,7 @@ impl Lattice {
         Lattice {
             n,
             stride,
-            f: vec![0.0; Q * stride],
+            f: super::pages::zeros(Q * stride),
             partial: vec![Sums::default(); n.div_ceil(CHUNK)],
             steps: 0,
             isa: None,

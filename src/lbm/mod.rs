@@ -10,6 +10,7 @@ pub mod kernel;
 pub mod memory;
 #[cfg(target_arch = "x86_64")]
 mod odd_x86;
+pub mod pages;
 pub mod solver;
 pub mod warm;
 

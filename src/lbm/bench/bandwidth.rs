@@ -6,6 +6,7 @@
 //! without the write-allocate read a cached store may add; the lattice kernel's traffic model
 //! counts the same way (its stores go to lines it has just read, so it has no write-allocate).
 
+use super::super::pages;
 use rayon::ThreadPool;
 use rayon::prelude::*;
 use std::hint::black_box;
@@ -32,9 +33,10 @@ pub fn measure(pool: &ThreadPool, array_bytes: usize, reps: usize) -> Bandwidth 
     let n = (array_bytes / 8).max(threads * 8);
     let block = n.div_ceil(threads);
     pool.install(|| {
-        let mut a = vec![0.0f64; n];
-        let mut b = vec![0.0f64; n];
-        let mut c = vec![0.0f64; n];
+        // The solver's page policy, so the roofline compares like with like.
+        let mut a: Vec<f64> = pages::zeros(n);
+        let mut b: Vec<f64> = pages::zeros(n);
+        let mut c: Vec<f64> = pages::zeros(n);
         // First touch by the thread that will use each block.
         a.par_chunks_mut(block)
             .zip(b.par_chunks_mut(block))
