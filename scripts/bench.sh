@@ -20,6 +20,8 @@ for f in avx2 fma avx512f avx512vl; do
 done
 caches=$(lscpu 2>/dev/null | grep -E '^(L1d|L2|L3) cache' | sed 's/  */ /g' | paste -sd ';' - || true)
 load=$(cut -d' ' -f1-3 /proc/loadavg)
+# Transparent huge pages: the solver asks for them (madvise); "never" here would cost speed.
+thp=$(cat /sys/kernel/mm/transparent_hugepage/enabled 2>/dev/null || echo unknown)
 
 target/release/voxperm bench "$@" --json "$base.json" | tee "$base.txt"
 
@@ -34,6 +36,7 @@ target/release/voxperm bench "$@" --json "$base.json" | tee "$base.txt"
     echo "| SIMD | ${simd# } |"
     echo "| caches | ${caches:-unknown} |"
     echo "| load average at start | $load |"
+    echo "| transparent huge pages | $thp |"
     echo "| command | voxperm bench $* |"
     echo
     echo '```'
@@ -42,6 +45,6 @@ target/release/voxperm bench "$@" --json "$base.json" | tee "$base.txt"
 } > "$base.md"
 
 # The machine record, also as JSON beside the figures.
-printf '{"cpu": "%s", "cores": %s, "memory_kib": %s, "simd": "%s", "load_average": "%s", "bench": "%s"}\n' \
-    "$cpu" "$cores" "$mem_kib" "${simd# }" "$load" "$(basename "$base.json")" > "$base.machine.json"
+printf '{"cpu": "%s", "cores": %s, "memory_kib": %s, "simd": "%s", "load_average": "%s", "transparent_huge_pages": "%s", "bench": "%s"}\n' \
+    "$cpu" "$cores" "$mem_kib" "${simd# }" "$load" "$thp" "$(basename "$base.json")" > "$base.machine.json"
 echo "wrote $base.md, $base.json, $base.machine.json" >&2
