@@ -406,6 +406,53 @@ fn describe_reports_geometry_without_solving() {
     assert!(stdout.contains("GiB"), "{stdout}");
 }
 
+/// describe's solve memory is the figure estimate predicts for the same settings: with the
+/// default warm start, and with --cold-start, where the coarse flow is not counted.
+#[test]
+fn describe_memory_follows_the_start() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(32, 11.0));
+    let figure = |extra: &[&str]| -> u64 {
+        let out = dir.path().join(format!("d{}.json", extra.len()));
+        let mut args = vec![
+            "describe",
+            sample.to_str().unwrap(),
+            "--periodic",
+            "--json",
+            out.to_str().unwrap(),
+        ];
+        args.extend_from_slice(extra);
+        let (code, stdout, stderr) = run(&args);
+        assert_eq!(code, 0, "{stdout}\n{stderr}");
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&out).unwrap()).unwrap();
+        v["axes"][0]["solve_memory_bytes"].as_u64().unwrap()
+    };
+    let predicted = |extra: &[&str]| -> u64 {
+        let out = dir.path().join(format!("e{}.json", extra.len()));
+        let mut args = vec![
+            "estimate",
+            sample.to_str().unwrap(),
+            "--periodic",
+            "--max-steps",
+            "400",
+            "--quiet",
+            "--json",
+            out.to_str().unwrap(),
+        ];
+        args.extend_from_slice(extra);
+        let (code, stdout, stderr) = run(&args);
+        assert!(code == 0 || code == 4, "{code}: {stdout}\n{stderr}");
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&out).unwrap()).unwrap();
+        v["memory"]["predicted_peak_bytes"].as_u64().unwrap()
+    };
+    let (warm, cold) = (figure(&[]), figure(&["--cold-start"]));
+    assert!(cold < warm, "cold {cold} warm {warm}");
+    assert_eq!(warm, predicted(&[]));
+    assert_eq!(cold, predicted(&["--cold-start"]));
+}
+
 #[test]
 fn vtk_output_has_the_sample_shape_and_fields() {
     let dir = tempfile::tempdir().unwrap();

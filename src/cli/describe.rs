@@ -28,6 +28,10 @@ pub struct DescribeArgs {
     /// Also write the figures to this JSON file.
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
+    /// Give the solve memory of `estimate --cold-start` (no coarse flow kept while the full
+    /// grid starts).
+    #[arg(long)]
+    pub cold_start: bool,
 }
 
 fn gib(b: u64) -> f64 {
@@ -92,8 +96,13 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         let axis = ap.axis;
         let grid = Domain::grid_shape(g.shape, axis, mode);
         let fluid = Domain::grid_fluid_nodes(ap.connected_pore_voxels as u64, g.shape, axis, mode);
-        // With the default settings, so the warm start's coarse flow counts where it will run.
-        let need = solve_stage_bytes(g.shape, grid, fluid, &SolverSettings::default())
+        // With the default settings, so the warm start's coarse flow counts where it will run
+        // (unless --cold-start says it will not).
+        let settings = SolverSettings {
+            warm_start: !a.cold_start,
+            ..SolverSettings::default()
+        };
+        let need = solve_stage_bytes(g.shape, grid, fluid, &settings)
             .max(load_peak_bytes(voxels, bytes_per_sample));
         let _ = writeln!(
             out,
