@@ -406,6 +406,29 @@ fn describe_reports_geometry_without_solving() {
     assert!(stdout.contains("GiB"), "{stdout}");
 }
 
+/// `--json -` puts the result on standard output, where a script can read it.
+#[test]
+fn json_dash_goes_to_standard_output() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--periodic",
+        "--quiet",
+        "--json",
+        "-",
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let v: serde_json::Value = serde_json::from_str(&stdout).unwrap();
+    assert!(
+        v["permeability_lattice"].as_f64().unwrap() > 0.0,
+        "{stdout}"
+    );
+    assert!(!dir.path().join("-").exists());
+    assert!(!std::path::Path::new("-").exists());
+}
+
 /// describe's solve memory is the figure estimate predicts for the same settings: with the
 /// default warm start, and with --cold-start, where the coarse flow is not counted.
 #[test]

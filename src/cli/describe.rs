@@ -25,7 +25,7 @@ pub struct DescribeArgs {
     pub input: InputArgs,
     #[command(flatten)]
     pub boundary: BoundaryArgs,
-    /// Also write the figures to this JSON file.
+    /// Also write the figures to this JSON file (- for standard output).
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
     /// Give the solve memory of `estimate --cold-start` (no coarse flow kept while the full

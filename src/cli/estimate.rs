@@ -26,7 +26,7 @@ pub struct EstimateArgs {
     pub solver: SolverArgs,
     #[command(flatten)]
     pub boundary: BoundaryArgs,
-    /// Write every figure, its unit and every setting to this JSON file.
+    /// Write every figure, its unit and every setting to this JSON file (- for standard output).
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
     /// Write the steady flow of the first axis as VTK image data (.vti): velocity, speed,

@@ -12,28 +12,42 @@ use crate::{Error, Result};
 /// Distinguishes temporary names of concurrent writes within one process.
 static COUNTER: AtomicU64 = AtomicU64::new(0);
 
+/// Where an output goes once the path is looked at.
+enum Destination {
+    /// A regular file (new or existing, possibly behind symbolic links): written to a temporary
+    /// file in `folder` and renamed onto `file`, so links to it stay links.
+    Replace { file: PathBuf, folder: PathBuf },
+    /// Standard output (`-`), a pipe or a device: written straight through; there is nothing to
+    /// rename, and replacing `/dev/null` or a FIFO with a regular file would be destructive.
+    Stream,
+}
+
 /// Writes `path` by running `f` on a buffered temporary file in the same folder and renaming
 /// it into place once `f` succeeded and the data reached the disk. On any failure the
-/// temporary file is removed and `path` is left as it was.
+/// temporary file is removed and `path` is left as it was. A symbolic link is followed and its
+/// target replaced; `-` means standard output; a pipe or device is written straight through.
 ///
-/// Fails before calling `f` when the destination folder does not exist or `path` is a folder.
-/// I/O errors inside `f` should be reported as [`Error::Output`] naming `path`
-/// (see [`output_error`]).
+/// Fails before calling `f` when the destination folder does not exist, `path` is a folder or
+/// a link to nothing. I/O errors inside `f` should be reported as [`Error::Output`] naming
+/// `path` (see [`output_error`]).
 pub fn write_atomically(
     path: &Path,
     f: impl FnOnce(&mut BufWriter<File>) -> Result<()>,
 ) -> Result<()> {
-    let folder = check_destination(path)?;
-    let Some(name) = path.file_name() else {
+    let (file, folder) = match destination(path)? {
+        Destination::Stream => return write_through(path, f),
+        Destination::Replace { file, folder } => (file, folder),
+    };
+    let Some(name) = file.file_name() else {
         return Err(Error::Output {
             path: path.to_path_buf(),
             msg: "has no file name".into(),
         });
     };
 
-    let (tmp_path, file) = create_temporary(&folder, &name.to_string_lossy(), path)?;
-    let result = write_and_sync(file, path, f);
-    match result.and_then(|()| fs::rename(&tmp_path, path).map_err(|e| output_error(path, e))) {
+    let (tmp_path, handle) = create_temporary(&folder, &name.to_string_lossy(), path)?;
+    let result = write_and_sync(handle, path, f);
+    match result.and_then(|()| fs::rename(&tmp_path, &file).map_err(|e| output_error(path, e))) {
         Ok(()) => Ok(()),
         Err(e) => {
             // Best effort: the original error is what the user needs to see.
@@ -43,10 +57,33 @@ pub fn write_atomically(
     }
 }
 
-/// Checks that `path` could be written: its folder exists and it is not itself a folder.
-/// Returns the folder. Commands call this before long work so a bad output path fails at once.
-pub fn check_destination(path: &Path) -> Result<PathBuf> {
-    let folder = match path.parent() {
+/// Checks that `path` could be written: its folder exists, and it is not a folder or a link
+/// to nothing. Commands call this before long work so a bad output path fails at once.
+pub fn check_destination(path: &Path) -> Result<()> {
+    destination(path).map(|_| ())
+}
+
+fn destination(path: &Path) -> Result<Destination> {
+    let out = |msg: String| Error::Output {
+        path: path.to_path_buf(),
+        msg,
+    };
+    if path.as_os_str() == "-" {
+        return Ok(Destination::Stream);
+    }
+    let file = match fs::symlink_metadata(path) {
+        Ok(m) if m.file_type().is_symlink() => match fs::metadata(path) {
+            // Replace the file the link points to, beside it, so the link survives.
+            Ok(t) if t.is_file() => fs::canonicalize(path).map_err(|e| output_error(path, e))?,
+            Ok(t) if t.is_dir() => return Err(out("is a folder, expected a file name".into())),
+            Ok(_) => return Ok(Destination::Stream),
+            Err(_) => return Err(out("is a symbolic link to nothing".into())),
+        },
+        Ok(m) if m.is_dir() => return Err(out("is a folder, expected a file name".into())),
+        Ok(m) if !m.is_file() => return Ok(Destination::Stream),
+        _ => path.to_path_buf(),
+    };
+    let folder = match file.parent() {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
     };
@@ -56,18 +93,39 @@ pub fn check_destination(path: &Path) -> Result<PathBuf> {
         } else {
             "does not exist"
         };
-        return Err(Error::Output {
-            path: path.to_path_buf(),
-            msg: format!("the folder {} {what}", folder.display()),
-        });
+        return Err(out(format!("the folder {} {what}", folder.display())));
     }
-    if path.is_dir() {
-        return Err(Error::Output {
-            path: path.to_path_buf(),
-            msg: "is a folder, expected a file name".into(),
-        });
-    }
-    Ok(folder)
+    Ok(Destination::Replace { file, folder })
+}
+
+/// Writes to standard output (`-`) or to an existing pipe or device, without a temporary file.
+fn write_through(path: &Path, f: impl FnOnce(&mut BufWriter<File>) -> Result<()>) -> Result<()> {
+    let handle = if path.as_os_str() == "-" {
+        stdout_file().map_err(|e| output_error(path, e))?
+    } else {
+        OpenOptions::new()
+            .write(true)
+            .open(path)
+            .map_err(|e| output_error(path, e))?
+    };
+    let mut writer = BufWriter::new(handle);
+    f(&mut writer)?;
+    writer.flush().map_err(|e| output_error(path, e))
+}
+
+/// A `File` writing to this process's standard output.
+#[cfg(unix)]
+fn stdout_file() -> std::io::Result<File> {
+    use std::os::fd::AsFd;
+    std::io::stdout().flush()?;
+    Ok(File::from(std::io::stdout().as_fd().try_clone_to_owned()?))
+}
+
+#[cfg(not(unix))]
+fn stdout_file() -> std::io::Result<File> {
+    Err(std::io::Error::other(
+        "writing to standard output with - needs a Unix system",
+    ))
 }
 
 /// An [`Error::Output`] for an I/O failure while writing `path`.
@@ -179,5 +237,67 @@ mod tests {
         let msg = err.to_string();
         assert!(matches!(err, Error::Output { .. }));
         assert!(msg.contains("does not exist"), "{msg}");
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn a_link_keeps_pointing_at_the_replaced_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let target = dir.path().join("real.json");
+        let link = dir.path().join("link.json");
+        fs::write(&target, b"old").unwrap();
+        std::os::unix::fs::symlink(&target, &link).unwrap();
+        write_atomically(&link, |w| {
+            w.write_all(b"new").map_err(|e| output_error(&link, e))
+        })
+        .unwrap();
+        assert!(
+            fs::symlink_metadata(&link)
+                .unwrap()
+                .file_type()
+                .is_symlink()
+        );
+        assert_eq!(fs::read(&target).unwrap(), b"new");
+        assert_eq!(
+            fs::read_dir(dir.path()).unwrap().count(),
+            2,
+            "temp file left"
+        );
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn a_link_to_nothing_is_refused() {
+        let dir = tempfile::tempdir().unwrap();
+        let link = dir.path().join("dangling.json");
+        std::os::unix::fs::symlink(dir.path().join("gone.json"), &link).unwrap();
+        let msg = check_destination(&link).unwrap_err().to_string();
+        assert!(msg.contains("link to nothing"), "{msg}");
+    }
+
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn a_pipe_is_written_through_not_replaced() {
+        use std::io::Read;
+        use std::os::unix::ffi::OsStrExt;
+        let dir = tempfile::tempdir().unwrap();
+        let fifo = dir.path().join("pipe.json");
+        let c = std::ffi::CString::new(fifo.as_os_str().as_bytes()).unwrap();
+        assert_eq!(unsafe { libc::mkfifo(c.as_ptr(), 0o600) }, 0);
+        let reader = {
+            let fifo = fifo.clone();
+            std::thread::spawn(move || {
+                let mut got = Vec::new();
+                File::open(&fifo).unwrap().read_to_end(&mut got).unwrap();
+                got
+            })
+        };
+        write_atomically(&fifo, |w| {
+            w.write_all(b"through").map_err(|e| output_error(&fifo, e))
+        })
+        .unwrap();
+        assert_eq!(reader.join().unwrap(), b"through");
+        let kind = fs::symlink_metadata(&fifo).unwrap().file_type();
+        assert!(!kind.is_file(), "the pipe was replaced by a regular file");
     }
 }
