@@ -51,6 +51,9 @@ pub enum Error {
     /// Writing an output failed.
     #[error("{}: {msg}", path.display())]
     Output { path: PathBuf, msg: String },
+    /// One of the errors above that does not name a file, about a sample: names it.
+    #[error("{}: {inner}", path.display())]
+    InSample { path: PathBuf, inner: Box<Error> },
     /// A bug: an invariant the code relies on did not hold.
     #[error("internal error: {0}")]
     Internal(String),
@@ -83,6 +86,22 @@ impl Error {
             Error::Output { .. } => exit::BAD_INPUT,
             Error::NoPercolatingPath { .. } | Error::Diverged { .. } => exit::SOLVER,
             Error::Internal(_) => exit::INTERNAL,
+            Error::InSample { inner, .. } => inner.exit_code(),
+        }
+    }
+
+    /// The error with `path` named in front, for the kinds whose message names no file (no
+    /// percolating path, divergence, an unusable volume, a solve too large); others unchanged.
+    pub fn in_sample(self, path: impl Into<PathBuf>) -> Self {
+        match self {
+            Error::NoPercolatingPath { .. }
+            | Error::Diverged { .. }
+            | Error::BadVolume(_)
+            | Error::TooLarge { .. } => Error::InSample {
+                path: path.into(),
+                inner: Box::new(self),
+            },
+            other => other,
         }
     }
 
@@ -101,6 +120,19 @@ pub type Result<T> = std::result::Result<T, Error>;
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn sample_errors_name_the_file_and_keep_their_code() {
+        let e = Error::NoPercolatingPath { axis: 'x' }.in_sample("core.tif");
+        assert_eq!(e.exit_code(), exit::SOLVER);
+        assert!(
+            e.to_string()
+                .starts_with("core.tif: no percolating pore path along x"),
+            "{e}"
+        );
+        let u = Error::Usage("bad".into()).in_sample("core.tif");
+        assert_eq!(u.to_string(), "bad");
+    }
 
     #[test]
     fn byte_counts_read_well() {

@@ -113,6 +113,28 @@ fn axis_all_gives_the_tensor_and_names_the_blocked_axis() {
     assert!(v["permeability_mD"]["x"].as_f64().unwrap() > 0.0);
 }
 
+/// A blocked single axis is a solver failure (exit 4) whose one line names the file.
+#[test]
+fn a_blocked_axis_names_the_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "slit.tif", &slit(Axis::Z, 4, 3));
+    let json = dir.path().join("never.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--axis",
+        "z",
+        "--periodic",
+        "--json",
+        json.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 4, "{stdout}\n{stderr}");
+    let want = format!("{}: no percolating pore path along z", sample.display());
+    assert!(stderr.contains(&want), "{stderr}");
+    assert_eq!(stderr.trim().lines().count(), 1, "{stderr}");
+    assert!(!json.exists());
+}
+
 #[test]
 fn bad_inputs_fail_with_one_clear_line_and_no_output() {
     let dir = tempfile::tempdir().unwrap();
@@ -406,6 +428,66 @@ fn describe_reports_geometry_without_solving() {
     assert!(stdout.contains("GiB"), "{stdout}");
 }
 
+/// A sample too short along the flow, and a voxel size far outside imaging practice, give an
+/// answer with a warning each, in the summary and in the result file.
+#[test]
+fn short_samples_and_odd_voxel_sizes_are_flagged() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(16, 7.5));
+    let out = dir.path().join("r.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--crop",
+        "8:9,:,:",
+        "--voxel-size",
+        "5e-20m",
+        "--max-steps",
+        "300",
+        "--json",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&out).unwrap()).unwrap();
+    let warnings: Vec<&str> = v["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w.as_str().unwrap())
+        .collect();
+    for needle in [
+        "only 1 voxel(s) long along the flow",
+        "outside the usual range",
+    ] {
+        assert!(
+            warnings.iter().any(|w| w.contains(needle)),
+            "{needle}: {warnings:?}"
+        );
+        assert!(
+            stdout.contains(needle) || stderr.contains(needle),
+            "{needle} not shown"
+        );
+    }
+    // Neither warning on the uncropped sample at a micro-CT voxel size.
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--voxel-size",
+        "5um",
+        "--max-steps",
+        "300",
+        "--json",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let text = std::fs::read_to_string(&out).unwrap();
+    assert!(
+        !text.contains("long along the flow") && !text.contains("usual range"),
+        "{text}"
+    );
+}
+
 /// `--json -` puts the result on standard output, where a script can read it.
 #[test]
 fn json_dash_goes_to_standard_output() {
@@ -474,6 +556,35 @@ fn describe_memory_follows_the_start() {
     assert!(cold < warm, "cold {cold} warm {warm}");
     assert_eq!(warm, predicted(&[]));
     assert_eq!(cold, predicted(&["--cold-start"]));
+}
+
+/// A cropped sample's field sits where the crop was taken, so it overlays the full image.
+#[test]
+fn vtk_of_a_crop_starts_at_the_crop() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    let vti = dir.path().join("crop.vti");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--crop",
+        "2:10,:,:",
+        "--voxel-size",
+        "4um",
+        "--periodic",
+        "--quiet",
+        "--vtk",
+        vti.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let text = std::fs::read_to_string(&vti).unwrap();
+    // 2 voxels of 4 µm before the crop along x (vtkio writes plain decimals).
+    assert!(
+        text.contains("Origin=\"0.000008 0 0\""),
+        "{}",
+        &text[..400.min(text.len())]
+    );
+    assert!(text.contains("WholeExtent=\"0 8 0 10 0 10\""));
 }
 
 #[test]

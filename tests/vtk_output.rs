@@ -338,12 +338,12 @@ fn bad_destinations_and_limits_are_errors_not_panics() {
 
     // 60 cells need 60 × 160 bytes, 12 cells at stride 2 need 1920: a 3000-byte cap refuses
     // stride 1 and names stride 2.
-    let e = write_vti_with_limit(&dir.path().join("f.vti"), &k, None, 1, 3000).unwrap_err();
+    let e = write_vti_with_limit(&dir.path().join("f.vti"), &k, None, 1, [0; 3], 3000).unwrap_err();
     let msg = e.to_string();
     assert!(matches!(e, Error::TooLarge { .. }), "{msg}");
     assert!(msg.contains("--vtk-stride 2 would fit"), "{msg}");
     assert!(!dir.path().join("f.vti").exists());
-    write_vti_with_limit(&dir.path().join("f.vti"), &k, None, 2, 3000).unwrap();
+    write_vti_with_limit(&dir.path().join("f.vti"), &k, None, 2, [0; 3], 3000).unwrap();
     assert_eq!(read(&dir.path().join("f.vti")).cells, [2, 3, 2]);
 }
 

@@ -3,7 +3,8 @@
 //! One cell per sample voxel (or per `stride`-th voxel along each axis), so pores and grains keep
 //! their voxel shape and every value sits where the solver computed it. Only the original sample
 //! is written: the mirror image or buffer slabs the solver added along the flow axis are cut away
-//! and the sample's corner is the origin.
+//! and the origin is the sample's corner in the original image (a crop's start), so the field
+//! overlays the full scan.
 //!
 //! # Units: Stokes scaling, not lattice units
 //! A lattice velocity becomes m/s only given the fluid's viscosity and the lattice time step, and
@@ -84,16 +85,19 @@ pub fn write_vti(
     voxel_size_m: Option<f64>,
     stride: usize,
 ) -> Result<()> {
-    write_vti_with_limit(path, kept, voxel_size_m, stride, DEFAULT_MAX_BYTES)
+    write_vti_with_limit(path, kept, voxel_size_m, stride, [0; 3], DEFAULT_MAX_BYTES)
 }
 
-/// As [`write_vti`], refusing with [`Error::TooLarge`] (naming a stride that fits) when the
-/// writer's peak memory ([`memory_estimate`]) would exceed `max_bytes`.
+/// As [`write_vti`], with the sample's first voxel at `origin_voxels` of the original image (a
+/// crop's start, so the field overlays the full scan in a viewer), refusing with
+/// [`Error::TooLarge`] (naming a stride that fits) when the writer's peak memory
+/// ([`memory_estimate`]) would exceed `max_bytes`.
 pub fn write_vti_with_limit(
     path: &Path,
     kept: &KeptField,
     voxel_size_m: Option<f64>,
     stride: usize,
+    origin_voxels: [usize; 3],
     max_bytes: u64,
 ) -> Result<()> {
     if stride == 0 {
@@ -140,9 +144,11 @@ pub fn write_vti_with_limit(
         ),
     })?;
     let arrays = cell_arrays(kept, &scale, stride, shape);
-    let spacing = voxel_size_m.unwrap_or(1.0) * stride as f64;
+    let voxel = voxel_size_m.unwrap_or(1.0);
+    let spacing = voxel * stride as f64;
+    let origin = origin_voxels.map(|o| (o as f64 * voxel) as f32);
     let field_data = field_data_xml(kept, &scale, voxel_size_m, stride);
-    let vtk = image_vtk(shape, spacing, arrays);
+    let vtk = image_vtk(shape, spacing, origin, arrays);
 
     crate::volume::write_atomically(path, |w| {
         let mut out = InsertAfterImageDataTag::new(&mut *w, field_data.into_bytes());
@@ -243,7 +249,7 @@ fn cell_arrays(kept: &KeptField, scale: &Scale, stride: usize, shape: [usize; 3]
     out
 }
 
-fn image_vtk(shape: [usize; 3], spacing: f64, arrays: CellArrays) -> Vtk {
+fn image_vtk(shape: [usize; 3], spacing: f64, origin: [f32; 3], arrays: CellArrays) -> Vtk {
     let extent = || Extent::Ranges(shape.map(|n| 0..=n as i32));
     let cell = vec![
         Attribute::vectors("velocity").with_data(arrays.velocity),
@@ -259,7 +265,7 @@ fn image_vtk(shape: [usize; 3], spacing: f64, arrays: CellArrays) -> Vtk {
         file_path: None,
         data: DataSet::ImageData {
             extent: extent(),
-            origin: [0.0; 3],
+            origin,
             spacing: [spacing as f32; 3],
             meta: None,
             pieces: vec![Piece::Inline(Box::new(ImageDataPiece {

@@ -29,6 +29,8 @@ pub struct Sample {
     pub voxel_size: Option<VoxelSize>,
     /// Shape of the file before cropping.
     pub file_shape: [usize; 3],
+    /// Where the (cropped) sample's first voxel sits in the file, in voxels.
+    pub crop_origin: [usize; 3],
     /// Sample type of the voxels ("u8", "u16", "f32").
     pub sample_type: String,
 }
@@ -37,8 +39,10 @@ pub struct Sample {
 pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
     let mut vol = load(&spec.path, spec.raw.as_ref(), limits)?;
     let file_shape = vol.shape;
+    let mut crop_origin = [0; 3];
     if let Some(c) = &spec.crop {
         let c = c.resolve(vol.shape)?;
+        crop_origin = c.ranges.clone().map(|r| r.start);
         vol = crop(&vol, &c);
     }
     if let Some(m) = spec.voxel_size_m {
@@ -52,6 +56,7 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         mask,
         voxel_size: vol.voxel_size.clone(),
         file_shape,
+        crop_origin,
         sample_type: vol.data.kind().to_string(),
     })
 }

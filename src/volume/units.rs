@@ -36,8 +36,15 @@ pub fn parse_length(s: &str) -> Result<f64> {
     })?;
     let unit = unit.trim();
     if unit.is_empty() {
+        // Suggest the reading the number most likely meant: a tiny number is metres, anything
+        // else micrometres (the usual micro-CT unit). Never rewrite the number itself.
+        let hint = if number.abs() < 1e-2 {
+            format!("{text}m if that is metres ({})", format_length(number))
+        } else {
+            format!("{text}um if that is micrometres")
+        };
         return Err(Error::Usage(format!(
-            "length '{s}' has no unit; add one of {ACCEPTED_UNITS}, e.g. {number}um"
+            "length '{s}' has no unit; add one of {ACCEPTED_UNITS}, e.g. {hint}"
         )));
     }
     let Some(scale) = unit_to_metres(unit) else {
@@ -69,6 +76,10 @@ fn split_number(text: &str) -> Option<(f64, &str)> {
 
 /// Formats a length in metres with a readable unit, e.g. 2.5e-6 → "2.5 µm".
 pub fn format_length(metres: f64) -> String {
+    // Far outside imaging sizes (a unit slip, usually): plain scientific notation in metres.
+    if metres != 0.0 && !(1e-10..1e4).contains(&metres.abs()) {
+        return format!("{metres:e} m");
+    }
     let (scale, unit) = match metres.abs() {
         m if m >= 1.0 => (1.0, "m"),
         m if m >= 1e-3 => (1e3, "mm"),
@@ -132,6 +143,16 @@ mod tests {
             panic!()
         };
         assert!(msg.contains("no unit"), "{msg}");
+        // The hint keeps the number as typed: a metre value is not turned into a micrometre one.
+        let Err(Error::Usage(msg)) = parse_length("2.5e-6") else {
+            panic!()
+        };
+        assert!(msg.contains("2.5e-6m if that is metres (2.5 µm)"), "{msg}");
+        assert!(!msg.contains("0.0000025"), "{msg}");
+        let Err(Error::Usage(msg)) = parse_length("3.2") else {
+            panic!()
+        };
+        assert!(msg.contains("3.2um if that is micrometres"), "{msg}");
     }
 
     #[test]
