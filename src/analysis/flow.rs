@@ -47,7 +47,11 @@ pub fn analyse(domain: &Domain, field: &FlowField, axis: Axis) -> AxisFlow {
         for d in 0..3 {
             sum_u[d] += u[d] as f64;
         }
-        sum_speed += ((u[0] * u[0] + u[1] * u[1] + u[2] * u[2]) as f64).sqrt();
+        // In f64: the square of an f32 is exact there and the square root correctly rounded,
+        // so |u| >= u_axis holds term by term and (rounding being monotone) the tortuosity
+        // never comes out below 1, as it did with |u| in f32 on straight channels.
+        let [x, y, z] = u.map(|c| c as f64);
+        sum_speed += (x * x + y * y + z * z).sqrt();
     }
     let superficial = sum_u.map(|s| s / sample_voxels);
     let g = field.force[a];
