@@ -34,7 +34,16 @@ pub fn analyse_tensor(k: [[f64; 3]; 3]) -> TensorAnalysis {
     let (values, vectors) = jacobi_eigen(sym);
     let mut order = [0usize, 1, 2];
     order.sort_by(|&a, &b| values[b].total_cmp(&values[a]));
-    let principal_values = order.map(|n| values[n]);
+    // Rotations leave round-off of order 1e-16 of the largest value where the tensor has a
+    // zero direction (a blocked axis): such values are zero, not tiny negative permeabilities.
+    let scale = values.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let principal_values = order.map(|n| {
+        if values[n].abs() <= 1e-12 * scale {
+            0.0
+        } else {
+            values[n]
+        }
+    });
     let principal_directions = order.map(|n| {
         let mut v = [vectors[0][n], vectors[1][n], vectors[2][n]];
         // Sign convention: largest component positive, so results are reproducible.
@@ -113,6 +122,10 @@ mod tests {
         assert_eq!(t.principal_values, [3.0, 2.0, 1.0]);
         assert_eq!(t.principal_directions[0], [0.0, 1.0, 0.0]);
         assert!((t.anisotropy_ratio - 3.0).abs() < 1e-15);
+        // A blocked direction gives an exact zero and an unbounded ratio.
+        let t = analyse_tensor([[2.0, 0.3, 0.0], [0.3, 1.0, 0.0], [0.0, 0.0, 0.0]]);
+        assert_eq!(t.principal_values[2], 0.0);
+        assert!(t.anisotropy_ratio.is_infinite());
         assert_eq!(t.asymmetry, 0.0);
     }
 

@@ -131,13 +131,17 @@ pub fn render(r: &EstimateReport) -> String {
                 sci(row[2])
             );
         }
+        let ratio = if t.anisotropy_ratio.is_finite() {
+            format!("{:.3}", t.anisotropy_ratio)
+        } else {
+            "unbounded (no flow along one principal direction)".to_string()
+        };
         let _ = writeln!(
             s,
-            "principal values [voxel²] {} {} {}; anisotropy ratio {:.3}; asymmetry {:.1e}",
+            "principal values [voxel²] {} {} {}; anisotropy ratio {ratio}; asymmetry {:.1e}",
             sci(t.principal_values[0]),
             sci(t.principal_values[1]),
             sci(t.principal_values[2]),
-            t.anisotropy_ratio,
             t.asymmetry
         );
         if let Some(m2) = r.principal_permeabilities_m2 {
