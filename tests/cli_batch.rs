@@ -334,7 +334,7 @@ fn manifest_mistakes_stop_the_batch_before_any_solve() {
     // A report over a folder without result files names the folder.
     std::fs::create_dir(dir.path().join("empty")).unwrap();
     let (got, _, stderr) = run_in(dir.path(), &["report", "empty", "--out", "r.html"]);
-    assert_eq!(got, 2, "{stderr}");
+    assert_eq!(got, 3, "{stderr}");
     assert!(
         stderr.contains("empty") && stderr.contains("no result files"),
         "{stderr}"

@@ -511,6 +511,22 @@ fn json_dash_goes_to_standard_output() {
     assert!(!std::path::Path::new("-").exists());
 }
 
+/// describe reports an all-pore volume's geometry and says that estimate will refuse it.
+#[test]
+fn describe_flags_an_all_pore_volume() {
+    let dir = tempfile::tempdir().unwrap();
+    let raw = dir.path().join("zeros.raw");
+    std::fs::write(&raw, vec![0u8; 8 * 8 * 8]).unwrap();
+    let (code, stdout, stderr) = run(&["describe", raw.to_str().unwrap(), "--raw-shape", "8x8x8"]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(
+        stdout.contains("every voxel is pore: estimate refuses it"),
+        "{stdout}"
+    );
+    let (code, _, stderr) = run(&["estimate", raw.to_str().unwrap(), "--raw-shape", "8x8x8"]);
+    assert_eq!(code, 3, "{stderr}");
+}
+
 /// describe's solve memory is the figure estimate predicts for the same settings: with the
 /// default warm start, and with --cold-start, where the coarse flow is not counted.
 #[test]

@@ -143,7 +143,7 @@ impl InputArgs {
     pub fn plan(&self) -> Result<InputPlan> {
         let raw = match &self.raw_shape {
             Some(shape) => Some(RawSpec {
-                shape: parse_shape(shape)?,
+                shape: parse_shape(shape).map_err(|e| Error::Usage(format!("--raw-shape: {e}")))?,
                 kind: RawType::parse(self.raw_type.as_deref().unwrap_or("u8"))?,
                 endian: Endian::parse(self.raw_endian.as_deref().unwrap_or("little"))?,
             }),

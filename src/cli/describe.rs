@@ -91,6 +91,12 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         "porosity    {:.4} total ({} pore voxels)",
         g.total_porosity, g.pore_voxels
     );
+    if g.pore_voxels as u64 == voxels {
+        let _ = writeln!(
+            out,
+            "            every voxel is pore: estimate refuses it (nothing resists the flow); check --pore-label or --threshold"
+        );
+    }
     let mut axes_json = Vec::new();
     for ap in &g.axes {
         let axis = ap.axis;

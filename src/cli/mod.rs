@@ -98,7 +98,8 @@ fn one_line_usage(text: &str) -> String {
         .lines()
         .map(str::trim)
         .take_while(|l| !l.starts_with("Usage:"))
-        .filter(|l| !l.is_empty())
+        // clap's own pointer to --help; ours ends the line.
+        .filter(|l| !l.is_empty() && !l.starts_with("For more information"))
         .collect();
     if parts.is_empty() {
         parts.push(text.lines().next().unwrap_or("error: bad command line"));
@@ -139,5 +140,9 @@ mod tests {
             line.contains("'estimate'"),
             "the nearest command should be suggested: {line}"
         );
+        let e = Cli::try_parse_from(["voxperm", "describe", "a.tif", "--pore-label", "-1"])
+            .unwrap_err();
+        let line = one_line_usage(&e.to_string());
+        assert_eq!(line.matches("--help").count(), 1, "{line}");
     }
 }

@@ -43,11 +43,12 @@ pub fn run(a: ReportArgs) -> Result<i32> {
     }
     let (entries, failed) = collect(&a.inputs)?;
     if entries.is_empty() && failed.is_empty() {
+        // Bad input (exit 3), as for a batch over a folder without samples.
         let names: Vec<String> = a.inputs.iter().map(|p| p.display().to_string()).collect();
-        return Err(Error::Usage(format!(
-            "{}: no result files (*.json written by voxperm estimate or batch) to report",
-            names.join(", ")
-        )));
+        return Err(Error::bad_input(
+            names.join(", "),
+            "no result files (*.json written by voxperm estimate or batch) to report",
+        ));
     }
     let doc = build(&a.title, &entries, failed)?;
     if let Some(p) = &a.out {

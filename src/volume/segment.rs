@@ -144,7 +144,12 @@ fn check_labels_present(data: &VoxelData, labels: &[u32]) -> Result<()> {
         Some(seen) => (list_seen(seen), true),
         None => list_floats(data),
     };
-    let hint = if all_integer {
+    let uniform = seen
+        .as_ref()
+        .is_some_and(|seen| seen.iter().filter(|&&b| b).count() == 1);
+    let hint = if uniform {
+        "; the image holds that one value only, so it is all solid for this label (or not segmented)"
+    } else if all_integer {
         ""
     } else {
         "; this float image may need a threshold instead of labels"
@@ -237,6 +242,16 @@ mod tests {
         };
         assert!(msg.contains("unknown pore label 0"), "{msg}");
         assert!(msg.contains("1, 2, 300"), "{msg}");
+        assert!(!msg.contains("all solid"), "{msg}");
+        // One value only: said to be all solid for the label.
+        let v = vol(VoxelData::U8(vec![255, 255, 255, 255]));
+        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default()) else {
+            panic!("expected a usage error");
+        };
+        assert!(
+            msg.contains("values present: 255") && msg.contains("all solid"),
+            "{msg}"
+        );
         // A label beyond the sample range can never occur.
         let v = vol(VoxelData::U8(vec![0, 1]));
         assert!(segment(&v, &Segmentation::Labels(vec![256])).is_err());
