@@ -226,6 +226,61 @@ fn a_killed_batch_resumes_with_the_unfinished_samples() {
     }
 }
 
+/// Ctrl-C mid-batch: exit 130, one line saying how to resume, finished results kept whole and
+/// no temporary file left in the results folder.
+#[cfg(target_os = "linux")]
+#[test]
+fn an_interrupted_batch_says_so_and_leaves_no_temporary_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let s = dir.path().join("scans");
+    std::fs::create_dir(&s).unwrap();
+    write_mask(&s, "s1.tif", &sphere_cell(12, 4.0));
+    write_mask(&s, "s2.tif", &sphere_cell(32, 11.0));
+    let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
+        .current_dir(dir.path())
+        .args([
+            "batch",
+            "scans",
+            "--out",
+            "res",
+            "--periodic",
+            "--tolerance",
+            "1e-12",
+            "--max-steps",
+            "3000",
+            "--quiet",
+        ])
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("spawn");
+    let res = dir.path().join("res");
+    let start = Instant::now();
+    while !res.join("s1.json").exists() {
+        assert!(
+            start.elapsed() < Duration::from_secs(60),
+            "first result never appeared"
+        );
+        if let Some(status) = child.try_wait().unwrap() {
+            panic!("batch ended before it could be interrupted: {status}");
+        }
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    assert_eq!(unsafe { libc::kill(child.id() as i32, libc::SIGINT) }, 0);
+    let out = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(130), "{stderr}");
+    assert!(
+        stderr.contains("interrupted") && stderr.contains("run the same batch again"),
+        "{stderr}"
+    );
+    json(&res.join("s1.json"));
+    assert!(!res.join("s2.json").exists());
+    for e in std::fs::read_dir(&res).unwrap() {
+        let name = e.unwrap().file_name().to_string_lossy().into_owned();
+        assert!(!name.ends_with(".tmp"), "temporary file left: {name}");
+    }
+}
+
 #[test]
 fn manifest_defaults_overrides_and_relative_paths() {
     let dir = tempfile::tempdir().unwrap();

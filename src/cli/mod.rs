@@ -71,6 +71,11 @@ pub fn main() -> i32 {
             return exit::USAGE;
         }
     };
+    on_interrupt(if matches!(cli.command, Command::Batch(_)) {
+        "; finished samples are kept: run the same batch again to resume"
+    } else {
+        ""
+    });
     let result = match cli.command {
         Command::Estimate(a) => estimate::run(a),
         Command::Describe(a) => describe::run(a),
@@ -87,6 +92,19 @@ pub fn main() -> i32 {
             e.exit_code()
         }
     }
+}
+
+/// Ctrl-C (SIGINT, or SIGTERM): remove the temporary files of writes in progress, so no
+/// partial output is left (finished files stay), say so in one line and exit 130.
+fn on_interrupt(advice: &'static str) {
+    let installed = ctrlc::set_handler(move || {
+        voxperm::volume::remove_pending_temporaries();
+        eprintln!("\nvoxperm: interrupted; unfinished output files removed{advice}");
+        std::process::exit(exit::INTERRUPTED);
+    });
+    // Without the handler an interrupt still ends the run (exit 130 by the shell's count), only
+    // a temporary file may stay behind; not a reason to refuse to run.
+    drop(installed);
 }
 
 /// Folds clap's multi-line usage error into one line: the error itself and any "tip" (the

@@ -5,12 +5,32 @@
 use std::fs::{self, File, OpenOptions};
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
+use std::sync::Mutex;
 use std::sync::atomic::{AtomicU64, Ordering};
 
 use crate::{Error, Result};
 
 /// Distinguishes temporary names of concurrent writes within one process.
 static COUNTER: AtomicU64 = AtomicU64::new(0);
+
+/// Temporary files being written right now, so an interrupt can remove them.
+static PENDING: Mutex<Vec<PathBuf>> = Mutex::new(Vec::new());
+
+fn pending() -> std::sync::MutexGuard<'static, Vec<PathBuf>> {
+    // A panic elsewhere while the list was held leaves it usable: it is only a list of names.
+    PENDING.lock().unwrap_or_else(|e| e.into_inner())
+}
+
+/// Removes the temporary files of every write still in progress, for an interrupt handler
+/// about to end the process, and keeps new ones from starting: returns with the list locked
+/// until the process exits. The destinations keep whatever they held before.
+pub fn remove_pending_temporaries() {
+    let mut list = pending();
+    for tmp in list.drain(..) {
+        let _ = fs::remove_file(tmp);
+    }
+    std::mem::forget(list);
+}
 
 /// Where an output goes once the path is looked at.
 enum Destination {
@@ -47,14 +67,18 @@ pub fn write_atomically(
 
     let (tmp_path, handle) = create_temporary(&folder, &name.to_string_lossy(), path)?;
     let result = write_and_sync(handle, path, f);
-    match result.and_then(|()| fs::rename(&tmp_path, &file).map_err(|e| output_error(path, e))) {
+    let outcome = match result
+        .and_then(|()| fs::rename(&tmp_path, &file).map_err(|e| output_error(path, e)))
+    {
         Ok(()) => Ok(()),
         Err(e) => {
             // Best effort: the original error is what the user needs to see.
             let _ = fs::remove_file(&tmp_path);
             Err(e)
         }
-    }
+    };
+    pending().retain(|p| p != &tmp_path);
+    outcome
 }
 
 /// Checks that `path` could be written: its folder exists, and it is not a folder or a link
@@ -150,10 +174,17 @@ fn create_temporary(folder: &Path, name: &str, dest: &Path) -> Result<(PathBuf, 
     for _ in 0..16 {
         let n = COUNTER.fetch_add(1, Ordering::Relaxed);
         let tmp = folder.join(format!(".{name}.{pid}.{n}.tmp"));
+        // Listed before it exists, so an interrupt between the two still removes it.
+        pending().push(tmp.clone());
         match OpenOptions::new().write(true).create_new(true).open(&tmp) {
             Ok(file) => return Ok((tmp, file)),
-            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => last_err = Some(e),
-            Err(e) => return Err(output_error(dest, e)),
+            Err(e) => {
+                pending().retain(|p| p != &tmp);
+                if e.kind() != std::io::ErrorKind::AlreadyExists {
+                    return Err(output_error(dest, e));
+                }
+                last_err = Some(e);
+            }
         }
     }
     Err(output_error(
