@@ -488,6 +488,33 @@ fn short_samples_and_odd_voxel_sizes_are_flagged() {
     );
 }
 
+/// --voxel-size over a file that records another size: used, with a warning naming both; the
+/// same size as the file's: no warning. (The shipped sintered disc records 3 µm.)
+#[test]
+fn a_voxel_size_replacing_the_files_is_named() {
+    let sample = concat!(env!("CARGO_MANIFEST_DIR"), "/samples/sintered-disc.tif");
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("r.json");
+    let warned = |size: &str| -> bool {
+        let (code, stdout, stderr) = run(&[
+            "estimate",
+            sample,
+            "--voxel-size",
+            size,
+            "--max-steps",
+            "100",
+            "--quiet",
+            "--json",
+            out.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{stdout}\n{stderr}");
+        let text = std::fs::read_to_string(&out).unwrap();
+        text.contains("given by the user replaces the 3 µm recorded in")
+    };
+    assert!(warned("2um"));
+    assert!(!warned("3um"));
+}
+
 /// `--json -` puts the result on standard output, where a script can read it.
 #[test]
 fn json_dash_goes_to_standard_output() {

@@ -546,3 +546,36 @@ fn bad_options_fail_with_one_line_and_leave_no_file() {
     assert_eq!(code, 3, "{stderr}");
     assert_eq!(stderr.lines().count(), 1, "{stderr}");
 }
+
+/// An output name whose extension says another format is refused before anything is built
+/// (a TIFF named .txt would be skipped by `batch`), for synth and for report.
+#[test]
+fn output_names_must_match_what_is_written() {
+    let dir = tempfile::tempdir().unwrap();
+    let txt = dir.path().join("foam.txt");
+    let (code, _, stderr) = run(&[
+        "synth",
+        "foam",
+        "--size",
+        "16",
+        "--porosity",
+        "0.9",
+        "--cell-size",
+        "8",
+        "--out",
+        txt.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("this writes a TIFF, not .txt"), "{stderr}");
+    assert!(!txt.exists());
+    let md = dir.path().join("report.md");
+    let (code, _, stderr) = run(&[
+        "report",
+        dir.path().to_str().unwrap(),
+        "--out",
+        md.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("this writes HTML, not .md"), "{stderr}");
+    assert!(!md.exists());
+}

@@ -94,6 +94,14 @@ pub fn run_sample(
         if voxel_m.is_none() {
             warnings.push("no voxel size given or found in the file: permeability in voxel² only (use --voxel-size)".into());
         }
+        if let (Some(file), Some(used)) = (&sample.overridden_voxel_size, &sample.voxel_size) {
+            warnings.push(format!(
+                "voxel size {} given by the user replaces the {} recorded in {}",
+                crate::volume::format_length(used.metres),
+                crate::volume::format_length(file.metres),
+                spec.path.display()
+            ));
+        }
         if let Some(v) = sample.voxel_size.as_ref().filter(|v| {
             !(USUAL_VOXEL_SIZE_M.0..=USUAL_VOXEL_SIZE_M.1).contains(&v.metres)
         }) {

@@ -31,13 +31,13 @@ pub struct InputArgs {
     /// Read a raw file of this shape, x fastest: NXxNYxNZ, e.g. 400x400x300.
     #[arg(long, value_name = "NXxNYxNZ")]
     pub raw_shape: Option<String>,
-    /// Sample type of a raw file.
+    /// Sample type of a raw file [default: u8].
     #[arg(long, value_name = "u8|u16|f32", requires = "raw_shape")]
     pub raw_type: Option<String>,
-    /// Byte order of a raw file.
+    /// Byte order of a raw file [default: little].
     #[arg(long, value_name = "little|big", requires = "raw_shape")]
     pub raw_endian: Option<String>,
-    /// Memory the run may use, e.g. 8GiB or 500MB (default: most of the available memory).
+    /// Memory the run may use, e.g. 8GiB or 500MB (default: 90 % of the memory available at start).
     #[arg(long, value_name = "SIZE")]
     pub max_memory: Option<String>,
 }
@@ -83,10 +83,11 @@ pub struct SolverArgs {
 /// How to treat the faces of the sample.
 #[derive(Args, Debug, Clone)]
 pub struct BoundaryArgs {
-    /// Faces parallel to the flow: sealed (no-flow walls) or periodic.
+    /// Faces parallel to the flow: sealed (no-flow walls) or periodic [default: sealed].
     #[arg(long, value_name = "sealed|periodic")]
     pub sides: Option<String>,
-    /// Faces normal to the flow: mirror, periodic, or buffer:N (N free-fluid slices per end).
+    /// Faces normal to the flow: mirror, periodic, or buffer:N (N free-fluid slices per end)
+    /// [default: mirror].
     #[arg(long, value_name = "mirror|periodic|buffer:N")]
     pub ends: Option<String>,
     /// Shorthand for --sides periodic --ends periodic (periodic unit cells, generated structures).
@@ -302,6 +303,29 @@ pub fn check_output_path(path: &Path, flag: &str) -> Result<()> {
             },
             other => other,
         })
+}
+
+/// Refuses an output name whose extension says another format than the one written (`wrong`
+/// lists such extensions, lower case), naming the extension to use: a TIFF called .txt or an
+/// HTML page called .md is skipped or misread later.
+pub fn check_extension(
+    path: &Path,
+    flag: &str,
+    writes: &str,
+    wrong: &[&str],
+    want: &str,
+) -> Result<()> {
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(str::to_ascii_lowercase);
+    match ext {
+        Some(e) if wrong.contains(&e.as_str()) => Err(Error::Usage(format!(
+            "{flag} {}: this writes {writes}, not .{e}; use {want}",
+            path.display()
+        ))),
+        _ => Ok(()),
+    }
 }
 
 #[cfg(test)]

@@ -2,7 +2,7 @@
 //! Markdown with SVG plots beside it. Reads a batch's results folder (its `summary.json` gives
 //! the order and the samples that failed) or result files named one by one.
 
-use super::args::check_output_path;
+use super::args::{check_extension, check_output_path};
 use clap::Args;
 use std::path::{Path, PathBuf};
 use voxperm::report::document::{Entry, build};
@@ -40,6 +40,24 @@ pub fn run(a: ReportArgs) -> Result<i32> {
         if let Some(p) = p {
             check_output_path(p, flag)?;
         }
+    }
+    if let Some(p) = &a.out {
+        check_extension(
+            p,
+            "--out",
+            "HTML",
+            &["md", "markdown", "txt", "json", "csv"],
+            "a .html name (Markdown goes to --markdown)",
+        )?;
+    }
+    if let Some(p) = &a.markdown {
+        check_extension(
+            p,
+            "--markdown",
+            "Markdown",
+            &["html", "htm", "json", "csv"],
+            "a .md name (HTML goes to --out)",
+        )?;
     }
     let (entries, failed) = collect(&a.inputs)?;
     if entries.is_empty() && failed.is_empty() {

@@ -6,7 +6,7 @@
 //! builds the generator's parameter struct before anything is allocated. Writing and the
 //! printed summary live in `synth_output.rs`.
 
-use super::args::check_output_path;
+use super::args::{check_extension, check_output_path};
 use super::synth_output::{OutputPlan, write_and_report};
 use clap::{Args, Subcommand};
 use std::path::PathBuf;
@@ -629,6 +629,23 @@ pub fn run(a: SynthArgs) -> Result<i32> {
         .transpose()
         .map_err(|e| Error::Usage(format!("--voxel-size {e}")))?;
     check_output_path(&out.out, "--out")?;
+    if out.raw {
+        check_extension(
+            &out.out,
+            "--out",
+            "raw bytes",
+            &["tif", "tiff", "json", "txt", "vti"],
+            "a .raw name with --raw",
+        )?;
+    } else {
+        check_extension(
+            &out.out,
+            "--out",
+            "a TIFF",
+            &["raw", "json", "txt", "csv", "vti", "html", "md", "png"],
+            "a .tif name (or --raw)",
+        )?;
+    }
     if let Some(j) = &out.json {
         check_output_path(j, "--json")?;
         if j == &out.out {

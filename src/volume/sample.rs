@@ -31,6 +31,8 @@ pub struct Sample {
     pub file_shape: [usize; 3],
     /// Where the (cropped) sample's first voxel sits in the file, in voxels.
     pub crop_origin: [usize; 3],
+    /// The file's own voxel size when `--voxel-size` replaced it with a different one.
+    pub overridden_voxel_size: Option<VoxelSize>,
     /// Sample type of the voxels ("u8", "u16", "f32").
     pub sample_type: String,
 }
@@ -45,7 +47,12 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         crop_origin = c.ranges.clone().map(|r| r.start);
         vol = crop(&vol, &c);
     }
+    let mut overridden_voxel_size = None;
     if let Some(m) = spec.voxel_size_m {
+        overridden_voxel_size = vol
+            .voxel_size
+            .clone()
+            .filter(|v| (v.metres - m).abs() > 1e-6 * m);
         vol.set_user_voxel_size(m)?;
     }
     let mask = segment(&vol, &spec.segmentation).map_err(|e| match e {
@@ -57,6 +64,7 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         voxel_size: vol.voxel_size.clone(),
         file_shape,
         crop_origin,
+        overridden_voxel_size,
         sample_type: vol.data.kind().to_string(),
     })
 }

@@ -91,7 +91,7 @@ pub fn read_slice_folder(folder: &Path, limits: &ReadLimits) -> Result<Volume> {
         if dec.more_images() {
             return Err(Error::bad_input(
                 path,
-                "slice has more than one page; a slice folder holds single-page TIFFs",
+                "slice has more than one page; a slice folder holds single-page TIFFs (to run every stack in a folder, use voxperm batch)",
             ));
         }
     }
