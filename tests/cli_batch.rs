@@ -226,11 +226,12 @@ fn a_killed_batch_resumes_with_the_unfinished_samples() {
     }
 }
 
-/// Ctrl-C mid-batch: exit 130, one line saying how to resume, finished results kept whole and
-/// no temporary file left in the results folder.
+/// Ctrl-C mid-batch: exit 130, one line saying how to resume, finished results kept whole.
+/// (The interrupt lands during a solve, when no write is in progress, so this does not test
+/// the removal of temporary files; the no-.tmp check below only guards the folder.)
 #[cfg(target_os = "linux")]
 #[test]
-fn an_interrupted_batch_says_so_and_leaves_no_temporary_files() {
+fn an_interrupted_batch_says_how_to_resume() {
     let dir = tempfile::tempdir().unwrap();
     let s = dir.path().join("scans");
     std::fs::create_dir(&s).unwrap();

@@ -554,6 +554,61 @@ fn describe_flags_an_all_pore_volume() {
     assert_eq!(code, 3, "{stderr}");
 }
 
+/// `--json /dev/stdout` with standard output redirected to a log appends to the log through
+/// the open descriptor; it does not replace the log file. Two outputs naming one file, and
+/// standard output for anything but the JSON, are refused before any work.
+#[cfg(target_os = "linux")]
+#[test]
+fn outputs_keep_redirected_logs_and_distinct_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    let log = dir.path().join("run.log");
+    std::fs::write(&log, "PREVIOUS LINE\n").unwrap();
+    let status = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
+        .args([
+            "estimate",
+            sample.to_str().unwrap(),
+            "--periodic",
+            "--json",
+            "/dev/stdout",
+        ])
+        .stdout(std::fs::OpenOptions::new().append(true).open(&log).unwrap())
+        .status()
+        .unwrap();
+    assert!(status.success());
+    let text = std::fs::read_to_string(&log).unwrap();
+    assert!(
+        text.starts_with("PREVIOUS LINE\n{"),
+        "{}",
+        &text[..80.min(text.len())]
+    );
+    // The JSON alone follows: no summary mixed in.
+    let v: serde_json::Value = serde_json::from_str(&text["PREVIOUS LINE\n".len()..]).unwrap();
+    assert!(v["permeability_lattice"].as_f64().unwrap() > 0.0);
+
+    let same = dir.path().join("same.vti");
+    let (code, _, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--json",
+        same.to_str().unwrap(),
+        "--vtk",
+        same.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("name the same file"), "{stderr}");
+    let (code, _, stderr) = run(&["estimate", sample.to_str().unwrap(), "--vtk", "-"]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(
+        stderr.contains("standard output takes only the JSON"),
+        "{stderr}"
+    );
+    let (code, stdout, stderr) = run(&["describe", sample.to_str().unwrap(), "--json", "-"]);
+    assert_eq!(code, 0, "{stderr}");
+    let v: serde_json::Value = serde_json::from_str(&stdout).unwrap();
+    assert!(v["axes"].is_array());
+}
+
 /// describe's solve memory is the figure estimate predicts for the same settings: with the
 /// default warm start, and with --cold-start, where the coarse flow is not counted.
 #[test]

@@ -579,3 +579,36 @@ fn output_names_must_match_what_is_written() {
     assert!(stderr.contains("this writes HTML, not .md"), "{stderr}");
     assert!(!md.exists());
 }
+
+/// synth writes only regular files (a TIFF is written with seeks and re-read for its hash),
+/// and refuses --json and --out naming one file however it is spelled.
+#[test]
+fn synth_needs_two_distinct_regular_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let args = [
+        "synth",
+        "foam",
+        "--size",
+        "16",
+        "--porosity",
+        "0.9",
+        "--cell-size",
+        "8",
+    ];
+    let with = |extra: &[&str]| {
+        let mut a = args.to_vec();
+        a.extend_from_slice(extra);
+        run(&a)
+    };
+    let (code, _, stderr) = with(&["--out", "-"]);
+    assert_eq!(code, 2, "{stderr}");
+    let (code, _, stderr) = with(&["--out", "/dev/null"]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("needs a regular file"), "{stderr}");
+    let out = dir.path().join("g.tif");
+    let alias = format!("{}/./g.tif", dir.path().display());
+    let (code, _, stderr) = with(&["--out", out.to_str().unwrap(), "--json", &alias]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("name the same file"), "{stderr}");
+    assert!(!out.exists());
+}

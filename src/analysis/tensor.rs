@@ -122,9 +122,38 @@ mod tests {
         assert_eq!(t.principal_values, [3.0, 2.0, 1.0]);
         assert_eq!(t.principal_directions[0], [0.0, 1.0, 0.0]);
         assert!((t.anisotropy_ratio - 3.0).abs() < 1e-15);
-        // A blocked direction gives an exact zero and an unbounded ratio.
-        let t = analyse_tensor([[2.0, 0.3, 0.0], [0.3, 1.0, 0.0], [0.0, 0.0, 0.0]]);
-        assert_eq!(t.principal_values[2], 0.0);
+        // A blocked direction, not along an axis (rank-2 tensor diag(2, 1, 0) rotated by 30°
+        // about x and 40° about z, so the rotations leave round-off in its zero value), gives
+        // an exact zero and an unbounded ratio.
+        let (a, b) = (30f64.to_radians(), 40f64.to_radians());
+        let rx = [
+            [1.0, 0.0, 0.0],
+            [0.0, a.cos(), -a.sin()],
+            [0.0, a.sin(), a.cos()],
+        ];
+        let rz = [
+            [b.cos(), -b.sin(), 0.0],
+            [b.sin(), b.cos(), 0.0],
+            [0.0, 0.0, 1.0],
+        ];
+        let mul = |p: [[f64; 3]; 3], q: [[f64; 3]; 3]| {
+            let mut m = [[0.0; 3]; 3];
+            for i in 0..3 {
+                for j in 0..3 {
+                    m[i][j] = (0..3).map(|k| p[i][k] * q[k][j]).sum();
+                }
+            }
+            m
+        };
+        let r = mul(rz, rx);
+        let rt = [0, 1, 2].map(|i| [0, 1, 2].map(|j| r[j][i]));
+        let k = mul(
+            mul(r, [[2.0, 0.0, 0.0], [0.0, 1.0, 0.0], [0.0, 0.0, 0.0]]),
+            rt,
+        );
+        let t = analyse_tensor(k);
+        assert_eq!(t.principal_values[2], 0.0, "{:?}", t.principal_values);
+        assert!((t.principal_values[0] - 2.0).abs() < 1e-12);
         assert!(t.anisotropy_ratio.is_infinite());
         assert_eq!(t.asymmetry, 0.0);
     }

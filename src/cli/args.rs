@@ -294,6 +294,58 @@ pub fn parse_axes(s: &str) -> Result<Vec<Axis>> {
 /// Fails now, before hours of solving, if an output could not be written later: its folder
 /// must exist and it must not be a folder itself.
 pub fn check_output_path(path: &Path, flag: &str) -> Result<()> {
+    if voxperm::volume::is_standard_output(path) {
+        return Err(Error::Usage(format!(
+            "{flag} {}: standard output takes only the JSON of estimate and describe; give a file name",
+            path.display()
+        )));
+    }
+    check_destination_for(path, flag)
+}
+
+/// As [`check_output_path`], also accepting standard output (`-`): for the JSON of commands
+/// that then print nothing else there.
+pub fn check_json_output(path: &Path, flag: &str) -> Result<()> {
+    check_destination_for(path, flag)
+}
+
+/// As [`check_output_path`], for outputs that must be regular files: re-read after writing, or
+/// written with seeks (TIFF), or with files beside them.
+pub fn check_file_output(path: &Path, flag: &str) -> Result<()> {
+    check_output_path(path, flag)?;
+    if voxperm::volume::is_stream(path) {
+        return Err(Error::Usage(format!(
+            "{flag} {}: needs a regular file, not a pipe or device",
+            path.display()
+        )));
+    }
+    Ok(())
+}
+
+/// Refuses two outputs of one run that land in the same file (one would silently replace the
+/// other), also through links or spelled differently (`g.tif` and `./g.tif`).
+pub fn check_distinct_outputs(outputs: &[(&Path, &str)]) -> Result<()> {
+    for (i, (a, fa)) in outputs.iter().enumerate() {
+        for (b, fb) in &outputs[i + 1..] {
+            let same = match (
+                voxperm::volume::resolved_destination(a),
+                voxperm::volume::resolved_destination(b),
+            ) {
+                (Some(x), Some(y)) => x == y,
+                _ => a == b && voxperm::volume::is_standard_output(a),
+            };
+            if same {
+                return Err(Error::Usage(format!(
+                    "{fa} and {fb} name the same file ({}); give two different names",
+                    a.display()
+                )));
+            }
+        }
+    }
+    Ok(())
+}
+
+fn check_destination_for(path: &Path, flag: &str) -> Result<()> {
     voxperm::volume::check_destination(path)
         .map(|_| ())
         .map_err(|e| match e {

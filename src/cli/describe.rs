@@ -1,7 +1,7 @@
 //! `voxperm describe`: geometry only — porosity, connectivity per axis, specific surface,
 //! Kozeny–Carman estimate and the memory a solve will need. No flow is solved.
 
-use super::args::{BoundaryArgs, InputArgs, check_output_path};
+use super::args::{BoundaryArgs, InputArgs, check_json_output};
 use clap::Args;
 use serde_json::json;
 use std::fmt::Write as _;
@@ -43,7 +43,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     let plan = a.input.plan()?;
     let mode = a.boundary.mode(BoundaryMode::SCAN)?;
     if let Some(p) = &a.json {
-        check_output_path(p, "--json")?;
+        check_json_output(p, "--json")?;
         super::args::check_not_input(p, &a.sample, "--json")?;
     }
     let spec = SampleSpec {
@@ -188,6 +188,13 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
                 .map_err(|e| voxperm::volume::output_error(p, e))
         })?;
     }
-    print!("{out}");
+    // JSON on standard output: the text would corrupt it.
+    if !a
+        .json
+        .as_deref()
+        .is_some_and(voxperm::volume::is_standard_output)
+    {
+        print!("{out}");
+    }
     Ok(voxperm::error::exit::OK)
 }

@@ -1,7 +1,8 @@
 //! `voxperm estimate`: the main job — flow through one sample, permeability and friends.
 
 use super::args::{
-    BoundaryArgs, InputArgs, SolverArgs, check_not_input, check_output_path, parse_axes,
+    BoundaryArgs, InputArgs, SolverArgs, check_distinct_outputs, check_json_output,
+    check_not_input, check_output_path, parse_axes,
 };
 use super::progress::Bar;
 use clap::Args;
@@ -58,9 +59,17 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
         vtk: vtk_request(&a)?,
     };
     if let Some(p) = &a.json {
-        check_output_path(p, "--json")?;
+        check_json_output(p, "--json")?;
         check_not_input(p, &a.sample, "--json")?;
     }
+    if let (Some(j), Some(v)) = (&a.json, &a.vtk) {
+        check_distinct_outputs(&[(j, "--json"), (v, "--vtk")])?;
+    }
+    // JSON on standard output: the summary would corrupt it, so it is not printed.
+    let quiet_summary = a.quiet
+        || a.json
+            .as_deref()
+            .is_some_and(voxperm::volume::is_standard_output);
     let spec = SampleSpec {
         path: a.sample.clone(),
         raw: plan.raw,
@@ -74,7 +83,7 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     if let Some(p) = &a.json {
         result.write(p)?;
     }
-    if !a.quiet {
+    if !quiet_summary {
         print!("{}", summary::render(&result.report));
     }
     Ok(voxperm::error::exit::OK)

@@ -94,12 +94,18 @@ pub fn main() -> i32 {
     }
 }
 
-/// Ctrl-C (SIGINT, or SIGTERM): remove the temporary files of writes in progress, so no
+/// Ctrl-C (SIGINT, or SIGTERM or SIGHUP): remove the temporary files of writes in progress, so no
 /// partial output is left (finished files stay), say so in one line and exit 130.
 fn on_interrupt(advice: &'static str) {
     let installed = ctrlc::set_handler(move || {
         voxperm::volume::remove_pending_temporaries();
-        eprintln!("\nvoxperm: interrupted; unfinished output files removed{advice}");
+        // Never panic here (stderr may be a closed pipe or a hung-up terminal): a panic would
+        // end this thread with the pending list locked, and the run would go on and hang.
+        use std::io::Write;
+        let _ = writeln!(
+            std::io::stderr(),
+            "\nvoxperm: interrupted; temporary files of unfinished outputs removed{advice}"
+        );
         std::process::exit(exit::INTERRUPTED);
     });
     // Without the handler an interrupt still ends the run (exit 130 by the shell's count), only

@@ -2,7 +2,7 @@
 //! Markdown with SVG plots beside it. Reads a batch's results folder (its `summary.json` gives
 //! the order and the samples that failed) or result files named one by one.
 
-use super::args::{check_extension, check_output_path};
+use super::args::{check_distinct_outputs, check_extension, check_file_output, check_output_path};
 use clap::Args;
 use std::path::{Path, PathBuf};
 use voxperm::report::document::{Entry, build};
@@ -36,10 +36,15 @@ pub fn run(a: ReportArgs) -> Result<i32> {
             "say where to write the report: --out report.html and/or --markdown report.md".into(),
         ));
     }
-    for (p, flag) in [(&a.out, "--out"), (&a.markdown, "--markdown")] {
-        if let Some(p) = p {
-            check_output_path(p, flag)?;
-        }
+    if let Some(p) = &a.out {
+        check_output_path(p, "--out")?;
+    }
+    if let Some(p) = &a.markdown {
+        // Its plots are written as files beside it.
+        check_file_output(p, "--markdown")?;
+    }
+    if let (Some(o), Some(m)) = (&a.out, &a.markdown) {
+        check_distinct_outputs(&[(o, "--out"), (m, "--markdown")])?;
     }
     if let Some(p) = &a.out {
         check_extension(
@@ -73,11 +78,14 @@ pub fn run(a: ReportArgs) -> Result<i32> {
         write_text(p, &html::render(&doc))?;
     }
     if let Some(p) = &a.markdown {
-        let stem = p
+        // The plots go beside the file the Markdown lands in (a link's target, if it is one),
+        // where its relative image links point.
+        let lands = voxperm::volume::resolved_destination(p).unwrap_or_else(|| p.clone());
+        let stem = lands
             .file_stem()
             .map_or("report".into(), |s| s.to_string_lossy().into_owned());
         let (text, files) = markdown::render(&doc, &stem);
-        let folder = p.parent().unwrap_or(Path::new(""));
+        let folder = lands.parent().unwrap_or(Path::new(""));
         for (name, svg) in files {
             write_text(&folder.join(name), &svg)?;
         }

@@ -6,7 +6,7 @@
 //! builds the generator's parameter struct before anything is allocated. Writing and the
 //! printed summary live in `synth_output.rs`.
 
-use super::args::{check_extension, check_output_path};
+use super::args::{check_distinct_outputs, check_extension, check_file_output, check_output_path};
 use super::synth_output::{OutputPlan, write_and_report};
 use clap::{Args, Subcommand};
 use std::path::PathBuf;
@@ -628,7 +628,8 @@ pub fn run(a: SynthArgs) -> Result<i32> {
         .map(parse_length)
         .transpose()
         .map_err(|e| Error::Usage(format!("--voxel-size {e}")))?;
-    check_output_path(&out.out, "--out")?;
+    // A regular file: a TIFF is written with seeks, and the output is re-read for its hash.
+    check_file_output(&out.out, "--out")?;
     if out.raw {
         check_extension(
             &out.out,
@@ -648,11 +649,7 @@ pub fn run(a: SynthArgs) -> Result<i32> {
     }
     if let Some(j) = &out.json {
         check_output_path(j, "--json")?;
-        if j == &out.out {
-            return Err(Error::Usage(
-                "--json and --out name the same file; give two different names".into(),
-            ));
-        }
+        check_distinct_outputs(&[(&out.out, "--out"), (j, "--json")])?;
     }
     let plan = OutputPlan {
         path: out.out.clone(),

@@ -72,4 +72,35 @@ mod tests {
         let z: Vec<f64> = zeros(5 << 20);
         assert!(z.iter().all(|&x| x == 0.0));
     }
+
+    /// The advice reaches the kernel: the mapping holding a large vector carries the `hg`
+    /// (huge-page advised) flag in /proc/self/smaps. Skipped where the kernel has no
+    /// transparent huge pages.
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn large_vectors_are_advised() {
+        if !std::path::Path::new("/sys/kernel/mm/transparent_hugepage/enabled").exists() {
+            return;
+        }
+        let v: Vec<f32> = zeros(8 << 20);
+        let at = v.as_ptr() as usize + (v.len() * 4) / 2;
+        let smaps = std::fs::read_to_string("/proc/self/smaps").unwrap();
+        let mut inside = false;
+        let mut flags = None;
+        for line in smaps.lines() {
+            let first = line.split_whitespace().next().unwrap_or("");
+            if let Some((lo, hi)) = first.split_once('-')
+                && let (Ok(lo), Ok(hi)) =
+                    (usize::from_str_radix(lo, 16), usize::from_str_radix(hi, 16))
+            {
+                inside = (lo..hi).contains(&at);
+            } else if inside && line.starts_with("VmFlags:") {
+                flags = Some(line.to_string());
+                break;
+            }
+        }
+        let flags = flags.expect("no mapping holds the vector");
+        assert!(flags.split_whitespace().any(|f| f == "hg"), "{flags}");
+        std::hint::black_box(&v);
+    }
 }

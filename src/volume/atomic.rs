@@ -32,30 +32,68 @@ pub fn remove_pending_temporaries() {
     std::mem::forget(list);
 }
 
+/// A temporary file on the pending list: removed (file and entry) when dropped unless it was
+/// renamed into place, so an error or a panic inside the writer leaves nothing behind.
+struct Temporary {
+    path: PathBuf,
+    renamed: bool,
+}
+
+impl Drop for Temporary {
+    fn drop(&mut self) {
+        let mut list = pending();
+        if !self.renamed {
+            // Best effort: the original error is what the user needs to see.
+            let _ = fs::remove_file(&self.path);
+        }
+        list.retain(|p| p != &self.path);
+    }
+}
+
 /// Where an output goes once the path is looked at.
 enum Destination {
     /// A regular file (new or existing, possibly behind symbolic links): written to a temporary
     /// file in `folder` and renamed onto `file`, so links to it stay links.
     Replace { file: PathBuf, folder: PathBuf },
-    /// Standard output (`-`), a pipe or a device: written straight through; there is nothing to
-    /// rename, and replacing `/dev/null` or a FIFO with a regular file would be destructive.
+    /// This process's standard output or error (`-`, `/dev/stdout`, or a path naming the file
+    /// they are open on): written through that descriptor, at its position.
+    Descriptor(Fd),
+    /// A pipe or device: opened and written straight through; there is nothing to rename, and
+    /// replacing `/dev/null` or a FIFO with a regular file would be destructive.
     Stream,
+}
+
+#[derive(Clone, Copy)]
+enum Fd {
+    Out,
+    Err,
 }
 
 /// Writes `path` by running `f` on a buffered temporary file in the same folder and renaming
 /// it into place once `f` succeeded and the data reached the disk. On any failure the
 /// temporary file is removed and `path` is left as it was. A symbolic link is followed and its
-/// target replaced; `-` means standard output; a pipe or device is written straight through.
+/// target replaced; `-`, or any path to the file standard output (error) is open on, writes to
+/// that descriptor; a pipe or device is written straight through.
 ///
 /// Fails before calling `f` when the destination folder does not exist, `path` is a folder or
-/// a link to nothing. I/O errors inside `f` should be reported as [`Error::Output`] naming
-/// `path` (see [`output_error`]).
+/// a link that cannot be followed. I/O errors inside `f` should be reported as
+/// [`Error::Output`] naming `path` (see [`output_error`]).
 pub fn write_atomically(
     path: &Path,
     f: impl FnOnce(&mut BufWriter<File>) -> Result<()>,
 ) -> Result<()> {
     let (file, folder) = match destination(path)? {
-        Destination::Stream => return write_through(path, f),
+        Destination::Descriptor(fd) => {
+            let handle = descriptor_file(fd).map_err(|e| output_error(path, e))?;
+            return write_through(handle, path, f);
+        }
+        Destination::Stream => {
+            let handle = OpenOptions::new()
+                .write(true)
+                .open(path)
+                .map_err(|e| output_error(path, e))?;
+            return write_through(handle, path, f);
+        }
         Destination::Replace { file, folder } => (file, folder),
     };
     let Some(name) = file.file_name() else {
@@ -65,26 +103,45 @@ pub fn write_atomically(
         });
     };
 
-    let (tmp_path, handle) = create_temporary(&folder, &name.to_string_lossy(), path)?;
-    let result = write_and_sync(handle, path, f);
-    let outcome = match result
-        .and_then(|()| fs::rename(&tmp_path, &file).map_err(|e| output_error(path, e)))
-    {
-        Ok(()) => Ok(()),
-        Err(e) => {
-            // Best effort: the original error is what the user needs to see.
-            let _ = fs::remove_file(&tmp_path);
-            Err(e)
-        }
-    };
-    pending().retain(|p| p != &tmp_path);
-    outcome
+    let (mut tmp, handle) = create_temporary(&folder, &name.to_string_lossy(), path)?;
+    write_and_sync(handle, path, f)?;
+    fs::rename(&tmp.path, &file).map_err(|e| output_error(path, e))?;
+    tmp.renamed = true;
+    Ok(())
 }
 
 /// Checks that `path` could be written: its folder exists, and it is not a folder or a link
-/// to nothing. Commands call this before long work so a bad output path fails at once.
+/// that cannot be followed. Commands call this before long work so a bad output path fails at
+/// once.
 pub fn check_destination(path: &Path) -> Result<()> {
     destination(path).map(|_| ())
+}
+
+/// True when `path` would be written as a stream (standard output, a pipe, a device) rather
+/// than as a file that can be re-read or seeked.
+pub fn is_stream(path: &Path) -> bool {
+    matches!(
+        destination(path),
+        Ok(Destination::Stream | Destination::Descriptor(_))
+    )
+}
+
+/// True when `path` writes to this process's standard output (`-`, `/dev/stdout`, or the
+/// file standard output is redirected to).
+pub fn is_standard_output(path: &Path) -> bool {
+    matches!(destination(path), Ok(Destination::Descriptor(Fd::Out)))
+}
+
+/// The file an output path ends up replacing, for telling whether two outputs of one run are
+/// the same file: the resolved path for a file (existing or not), None for streams.
+pub fn resolved_destination(path: &Path) -> Option<PathBuf> {
+    match destination(path).ok()? {
+        Destination::Replace { file, folder } => {
+            let folder = fs::canonicalize(&folder).unwrap_or(folder);
+            Some(folder.join(file.file_name()?))
+        }
+        _ => None,
+    }
 }
 
 fn destination(path: &Path) -> Result<Destination> {
@@ -93,17 +150,29 @@ fn destination(path: &Path) -> Result<Destination> {
         msg,
     };
     if path.as_os_str() == "-" {
-        return Ok(Destination::Stream);
+        return Ok(Destination::Descriptor(Fd::Out));
     }
     let file = match fs::symlink_metadata(path) {
         Ok(m) if m.file_type().is_symlink() => match fs::metadata(path) {
+            // /dev/stdout and the like: the descriptor itself, wherever it points, so a
+            // redirected log is appended to, not replaced.
+            Ok(t) if let Some(fd) = open_descriptor(&t) => return Ok(Destination::Descriptor(fd)),
             // Replace the file the link points to, beside it, so the link survives.
             Ok(t) if t.is_file() => fs::canonicalize(path).map_err(|e| output_error(path, e))?,
             Ok(t) if t.is_dir() => return Err(out("is a folder, expected a file name".into())),
             Ok(_) => return Ok(Destination::Stream),
-            Err(_) => return Err(out("is a symbolic link to nothing".into())),
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                return Err(out("is a symbolic link to nothing".into()));
+            }
+            Err(e) => {
+                return Err(out(format!(
+                    "is a symbolic link that cannot be followed: {}",
+                    one_line(&e.to_string())
+                )));
+            }
         },
         Ok(m) if m.is_dir() => return Err(out("is a folder, expected a file name".into())),
+        Ok(m) if let Some(fd) = open_descriptor(&m) => return Ok(Destination::Descriptor(fd)),
         Ok(m) if !m.is_file() => return Ok(Destination::Stream),
         _ => path.to_path_buf(),
     };
@@ -122,31 +191,49 @@ fn destination(path: &Path) -> Result<Destination> {
     Ok(Destination::Replace { file, folder })
 }
 
-/// Writes to standard output (`-`) or to an existing pipe or device, without a temporary file.
-fn write_through(path: &Path, f: impl FnOnce(&mut BufWriter<File>) -> Result<()>) -> Result<()> {
-    let handle = if path.as_os_str() == "-" {
-        stdout_file().map_err(|e| output_error(path, e))?
-    } else {
-        OpenOptions::new()
-            .write(true)
-            .open(path)
-            .map_err(|e| output_error(path, e))?
+/// Whether `m` describes the very file this process's standard output or error is open on.
+#[cfg(unix)]
+fn open_descriptor(m: &fs::Metadata) -> Option<Fd> {
+    use std::os::unix::fs::MetadataExt;
+    let same = |fd: Fd| {
+        descriptor_file(fd)
+            .and_then(|f| f.metadata())
+            .is_ok_and(|d| d.dev() == m.dev() && d.ino() == m.ino())
     };
+    [Fd::Out, Fd::Err].into_iter().find(|&fd| same(fd))
+}
+
+#[cfg(not(unix))]
+fn open_descriptor(_m: &fs::Metadata) -> Option<Fd> {
+    None
+}
+
+/// Writes to an open descriptor or stream, without a temporary file.
+fn write_through(
+    handle: File,
+    path: &Path,
+    f: impl FnOnce(&mut BufWriter<File>) -> Result<()>,
+) -> Result<()> {
     let mut writer = BufWriter::new(handle);
     f(&mut writer)?;
     writer.flush().map_err(|e| output_error(path, e))
 }
 
-/// A `File` writing to this process's standard output.
+/// A `File` on a duplicate of this process's standard output or error.
 #[cfg(unix)]
-fn stdout_file() -> std::io::Result<File> {
+fn descriptor_file(fd: Fd) -> std::io::Result<File> {
     use std::os::fd::AsFd;
-    std::io::stdout().flush()?;
-    Ok(File::from(std::io::stdout().as_fd().try_clone_to_owned()?))
+    Ok(match fd {
+        Fd::Out => {
+            std::io::stdout().flush()?;
+            File::from(std::io::stdout().as_fd().try_clone_to_owned()?)
+        }
+        Fd::Err => File::from(std::io::stderr().as_fd().try_clone_to_owned()?),
+    })
 }
 
 #[cfg(not(unix))]
-fn stdout_file() -> std::io::Result<File> {
+fn descriptor_file(_fd: Fd) -> std::io::Result<File> {
     Err(std::io::Error::other(
         "writing to standard output with - needs a Unix system",
     ))
@@ -165,26 +252,29 @@ pub(crate) fn one_line(s: &str) -> String {
     s.split_whitespace().collect::<Vec<_>>().join(" ")
 }
 
-/// Creates a fresh hidden temporary file `.NAME.PID.N.tmp` in `folder`. `create_new` makes a
-/// stale file of the same name (a crashed earlier run) a reason to try the next number, never
-/// something we write through.
-fn create_temporary(folder: &Path, name: &str, dest: &Path) -> Result<(PathBuf, File)> {
+/// Creates a fresh hidden temporary file `.NAME.PID.N.tmp` in `folder`, on the pending list.
+/// `create_new` makes a stale file of the same name (a crashed earlier run) a reason to try
+/// the next number, never something we write through. The list stays locked from the entry to
+/// the file's creation, so an interrupt sees either neither or both.
+fn create_temporary(folder: &Path, name: &str, dest: &Path) -> Result<(Temporary, File)> {
     let pid = std::process::id();
     let mut last_err = None;
     for _ in 0..16 {
         let n = COUNTER.fetch_add(1, Ordering::Relaxed);
         let tmp = folder.join(format!(".{name}.{pid}.{n}.tmp"));
-        // Listed before it exists, so an interrupt between the two still removes it.
-        pending().push(tmp.clone());
+        let mut list = pending();
         match OpenOptions::new().write(true).create_new(true).open(&tmp) {
-            Ok(file) => return Ok((tmp, file)),
-            Err(e) => {
-                pending().retain(|p| p != &tmp);
-                if e.kind() != std::io::ErrorKind::AlreadyExists {
-                    return Err(output_error(dest, e));
-                }
-                last_err = Some(e);
+            Ok(file) => {
+                list.push(tmp.clone());
+                drop(list);
+                let temporary = Temporary {
+                    path: tmp,
+                    renamed: false,
+                };
+                return Ok((temporary, file));
             }
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => last_err = Some(e),
+            Err(e) => return Err(output_error(dest, e)),
         }
     }
     Err(output_error(
@@ -330,5 +420,24 @@ mod tests {
         assert_eq!(reader.join().unwrap(), b"through");
         let kind = fs::symlink_metadata(&fifo).unwrap().file_type();
         assert!(!kind.is_file(), "the pipe was replaced by a regular file");
+    }
+
+    #[test]
+    fn a_panicking_writer_leaves_no_temporary_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("out.json");
+        let caught = std::panic::catch_unwind(|| {
+            let _ = write_atomically(&path, |w| {
+                w.write_all(b"partial").unwrap();
+                panic!("writer failed");
+            });
+        });
+        assert!(caught.is_err());
+        assert_eq!(
+            fs::read_dir(dir.path()).unwrap().count(),
+            0,
+            "temp file left"
+        );
+        assert!(!pending().iter().any(|p| p.starts_with(dir.path())));
     }
 }

@@ -22,7 +22,10 @@ use std::fmt;
 use std::path::{Path, PathBuf};
 
 pub(crate) use atomic::one_line;
-pub use atomic::{check_destination, output_error, remove_pending_temporaries, write_atomically};
+pub use atomic::{
+    check_destination, is_standard_output, is_stream, output_error, remove_pending_temporaries,
+    resolved_destination, write_atomically,
+};
 pub use crop::{Crop, CropSpec, crop};
 pub use limits::{ReadLimits, available_memory_bytes, bytes_for};
 pub use raw::{Endian, RawSpec, RawType, parse_shape, read_raw};

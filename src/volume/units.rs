@@ -38,7 +38,13 @@ pub fn parse_length(s: &str) -> Result<f64> {
     if unit.is_empty() {
         // Suggest the reading the number most likely meant: a tiny number is metres, anything
         // else micrometres (the usual micro-CT unit). Never rewrite the number itself.
-        let hint = if number.abs() < 1e-2 {
+        if !(number.is_finite() && number > 0.0) {
+            return Err(Error::Usage(format!(
+                "length '{s}' has no unit, and a length must be positive and finite"
+            )));
+        }
+        // Below 1e-4 metres is the only sensible reading (0.005 is more likely millimetres).
+        let hint = if number > 0.0 && number < 1e-4 {
             format!("{text}m if that is metres ({})", format_length(number))
         } else {
             format!("{text}um if that is micrometres")
@@ -153,6 +159,10 @@ mod tests {
             panic!()
         };
         assert!(msg.contains("3.2um if that is micrometres"), "{msg}");
+        let Err(Error::Usage(msg)) = parse_length("0.005") else {
+            panic!()
+        };
+        assert!(msg.contains("0.005um if that is micrometres"), "{msg}");
     }
 
     #[test]
