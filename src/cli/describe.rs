@@ -130,6 +130,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
             "percolates": ap.percolates,
             "connected_porosity": ap.connected_porosity,
             "solve_memory_bytes": need,
+            "solve_memory_assumes_warm_start": settings.warm_start,
             "fluid_nodes": fluid,
             "grid_shape": grid,
         }));

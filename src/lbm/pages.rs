@@ -8,7 +8,9 @@
 //! `voxperm bench` on the development machine (README, "Performance"). Elsewhere, or if the
 //! request is refused, the arrays simply keep normal pages.
 
-/// Bytes of a huge page on x86-64 and AArch64 Linux (common practice).
+/// Bytes of a huge page on Linux with 4 KiB base pages (x86-64, most AArch64; common
+/// practice). On kernels with other base pages the advice covers whole 2 MiB spans anyway and
+/// does no harm.
 #[cfg(target_os = "linux")]
 const HUGE_PAGE: usize = 2 << 20;
 
@@ -21,8 +23,9 @@ pub fn filled<T: Clone>(len: usize, value: T) -> Vec<T> {
 }
 
 /// A vector of `len` default values (zeros for numbers) whose storage asked for huge pages.
-/// For numbers the allocator hands out fresh zeroed pages, so they are first touched by
-/// whoever writes them first, not here.
+/// For numbers large enough to be mapped fresh (the binary sets glibc's mmap threshold to
+/// 1 MiB at start-up, lbm::memory), the pages are first touched by whoever writes them first,
+/// not here; a heap block that was touched before keeps its pages.
 pub fn zeros<T: Clone + Default>(len: usize) -> Vec<T> {
     let v = vec![T::default(); len];
     advise(v.as_ptr() as usize, len * std::mem::size_of::<T>());

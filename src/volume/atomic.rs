@@ -104,6 +104,10 @@ pub fn write_atomically(
     };
 
     let (mut tmp, handle) = create_temporary(&folder, &name.to_string_lossy(), path)?;
+    // A replaced file keeps its permissions (a private 600 result stays private).
+    if let Ok(old) = fs::metadata(&file) {
+        let _ = handle.set_permissions(old.permissions());
+    }
     write_and_sync(handle, path, f)?;
     fs::rename(&tmp.path, &file).map_err(|e| output_error(path, e))?;
     tmp.renamed = true;
@@ -439,5 +443,24 @@ mod tests {
             "temp file left"
         );
         assert!(!pending().iter().any(|p| p.starts_with(dir.path())));
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn a_replaced_file_keeps_its_permissions() {
+        use std::os::unix::fs::PermissionsExt;
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("private.json");
+        fs::write(&path, b"old").unwrap();
+        fs::set_permissions(&path, fs::Permissions::from_mode(0o600)).unwrap();
+        write_atomically(&path, |w| {
+            w.write_all(b"new").map_err(|e| output_error(&path, e))
+        })
+        .unwrap();
+        assert_eq!(
+            fs::metadata(&path).unwrap().permissions().mode() & 0o777,
+            0o600
+        );
+        assert_eq!(fs::read(&path).unwrap(), b"new");
     }
 }
