@@ -251,14 +251,20 @@ unsafe fn run_neighbours(domain: &Domain, g: &SimdGrid, p: [u16; 3], m: &mut [__
 #[inline(always)]
 unsafe fn any_neighbours(domain: &Domain, g: &SimdGrid, k: usize, m: &mut [__m256i; Q]) {
     unsafe {
-        let coords = domain.coords.as_ptr().add(k);
-        let mut pos = [[0u32; LANES]; 3];
-        for l in 0..LANES {
-            let p = *coords.add(l);
-            pos[0][l] = p[0] as u32;
-            pos[1][l] = p[1] as u32;
-            pos[2][l] = p[2] as u32;
-        }
+        // The eight nodes' (x, y, z) as u32 lanes, from the 48 bytes of their u16 triples: two
+        // gathers of 32-bit words at byte offsets 6l (x | y << 16) and 6l + 2 (y | z << 16),
+        // which stay inside the 48 bytes. (Filling lane arrays with scalar stores and reading
+        // them back as vectors stalls on store forwarding.)
+        let coords = domain.coords.as_ptr().add(k) as *const i32;
+        let six = _mm256_setr_epi32(0, 6, 12, 18, 24, 30, 36, 42);
+        let xy = _mm256_i32gather_epi32(coords, six, 1);
+        let yz = _mm256_i32gather_epi32((coords as *const u8).add(2) as *const i32, six, 1);
+        let low = _mm256_set1_epi32(0xffff);
+        let pos = [
+            _mm256_and_si256(xy, low),
+            _mm256_and_si256(yz, low),
+            _mm256_srli_epi32(yz, 16),
+        ];
         let zero = _mm256_setzero_si256();
         let ones = _mm256_set1_epi32(-1);
         let one = _mm256_set1_epi32(1);
@@ -267,7 +273,7 @@ unsafe fn any_neighbours(domain: &Domain, g: &SimdGrid, k: usize, m: &mut [__m25
         let mut off = [[zero; 3]; 3];
         let mut out = [[zero; 2]; 3];
         for a in 0..3 {
-            let p = _mm256_loadu_si256(pos[a].as_ptr() as *const __m256i);
+            let p = pos[a];
             let last = _mm256_set1_epi32(g.last[a] as i32);
             let lo = _mm256_cmpeq_epi32(p, zero);
             let hi = _mm256_cmpeq_epi32(p, last);
