@@ -155,6 +155,21 @@ fn rerun_redoes_only_missing_or_changed_samples() {
     assert_eq!(stderr.matches("skipped").count(), 0, "{stderr}");
 }
 
+/// Waits until a running batch has written `first`, so an interrupt lands in a later sample.
+fn wait_for_first_result(child: &mut std::process::Child, first: &Path) {
+    let start = Instant::now();
+    while !first.exists() {
+        assert!(
+            start.elapsed() < Duration::from_secs(60),
+            "first result never appeared"
+        );
+        if let Some(status) = child.try_wait().unwrap() {
+            panic!("batch ended before it could be interrupted: {status}");
+        }
+        std::thread::sleep(Duration::from_millis(10));
+    }
+}
+
 #[test]
 fn a_killed_batch_resumes_with_the_unfinished_samples() {
     let dir = tempfile::tempdir().unwrap();
@@ -183,17 +198,7 @@ fn a_killed_batch_resumes_with_the_unfinished_samples() {
         .spawn()
         .expect("spawn");
     let res = dir.path().join("res");
-    let start = Instant::now();
-    while !res.join("s1.json").exists() {
-        assert!(
-            start.elapsed() < Duration::from_secs(60),
-            "first result never appeared"
-        );
-        if let Some(status) = child.try_wait().unwrap() {
-            panic!("batch ended before it could be interrupted: {status}");
-        }
-        std::thread::sleep(Duration::from_millis(10));
-    }
+    wait_for_first_result(&mut child, &res.join("s1.json"));
     child.kill().unwrap();
     child.wait().unwrap();
     let finished: Vec<bool> = ["s1", "s2", "s3"]
@@ -255,17 +260,7 @@ fn an_interrupted_batch_says_how_to_resume() {
         .spawn()
         .expect("spawn");
     let res = dir.path().join("res");
-    let start = Instant::now();
-    while !res.join("s1.json").exists() {
-        assert!(
-            start.elapsed() < Duration::from_secs(60),
-            "first result never appeared"
-        );
-        if let Some(status) = child.try_wait().unwrap() {
-            panic!("batch ended before it could be interrupted: {status}");
-        }
-        std::thread::sleep(Duration::from_millis(10));
-    }
+    wait_for_first_result(&mut child, &res.join("s1.json"));
     assert_eq!(unsafe { libc::kill(child.id() as i32, libc::SIGINT) }, 0);
     let out = child.wait_with_output().unwrap();
     let stderr = String::from_utf8_lossy(&out.stderr);

@@ -547,13 +547,9 @@ fn bad_options_fail_with_one_line_and_leave_no_file() {
     assert_eq!(stderr.lines().count(), 1, "{stderr}");
 }
 
-/// An output name whose extension says another format is refused before anything is built
-/// (a TIFF named .txt would be skipped by `batch`), for synth and for report.
-#[test]
-fn output_names_must_match_what_is_written() {
-    let dir = tempfile::tempdir().unwrap();
-    let txt = dir.path().join("foam.txt");
-    let (code, _, stderr) = run(&[
+/// `voxperm synth foam` of a 16³ box, with `extra` options.
+fn small_foam(extra: &[&str]) -> (i32, String, String) {
+    let mut a = vec![
         "synth",
         "foam",
         "--size",
@@ -562,9 +558,18 @@ fn output_names_must_match_what_is_written() {
         "0.9",
         "--cell-size",
         "8",
-        "--out",
-        txt.to_str().unwrap(),
-    ]);
+    ];
+    a.extend_from_slice(extra);
+    run(&a)
+}
+
+/// An output name whose extension says another format is refused before anything is built
+/// (a TIFF named .txt would be skipped by `batch`), for synth and for report.
+#[test]
+fn output_names_must_match_what_is_written() {
+    let dir = tempfile::tempdir().unwrap();
+    let txt = dir.path().join("foam.txt");
+    let (code, _, stderr) = small_foam(&["--out", txt.to_str().unwrap()]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("this writes a TIFF, not .txt"), "{stderr}");
     assert!(!txt.exists());
@@ -585,21 +590,7 @@ fn output_names_must_match_what_is_written() {
 #[test]
 fn synth_needs_two_distinct_regular_files() {
     let dir = tempfile::tempdir().unwrap();
-    let args = [
-        "synth",
-        "foam",
-        "--size",
-        "16",
-        "--porosity",
-        "0.9",
-        "--cell-size",
-        "8",
-    ];
-    let with = |extra: &[&str]| {
-        let mut a = args.to_vec();
-        a.extend_from_slice(extra);
-        run(&a)
-    };
+    let with = small_foam;
     let (code, _, stderr) = with(&["--out", "-"]);
     assert_eq!(code, 2, "{stderr}");
     let (code, _, stderr) = with(&["--out", "/dev/null"]);
