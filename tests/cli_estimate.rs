@@ -513,6 +513,34 @@ fn a_voxel_size_replacing_the_files_is_named() {
     };
     assert!(warned("2um"));
     assert!(!warned("3um"));
+    // describe gives the same advice, before any solve.
+    let (code, _, stderr) = run(&["describe", sample, "--voxel-size", "3m"]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stderr.contains("replaces the 3 µm recorded in"), "{stderr}");
+    assert!(stderr.contains("outside the usual range"), "{stderr}");
+}
+
+/// A reader that quits early (`voxperm … | head -0`) makes the summary's write fail: one line
+/// naming standard output, exit 3, no panic.
+#[cfg(unix)]
+#[test]
+fn a_closed_standard_output_is_an_error_not_a_panic() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
+        .args(["describe", sample.to_str().unwrap()])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stdout.take());
+    let out = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(3), "{stderr}");
+    assert!(
+        stderr.contains("standard output") && !stderr.contains("panicked"),
+        "{stderr}"
+    );
 }
 
 /// `--json -` puts the result on standard output, where a script can read it.

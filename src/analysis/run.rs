@@ -94,22 +94,7 @@ pub fn run_sample(
         if voxel_m.is_none() {
             warnings.push("no voxel size given or found in the file: permeability in voxel² only (use --voxel-size)".into());
         }
-        if let (Some(file), Some(used)) = (&sample.overridden_voxel_size, &sample.voxel_size) {
-            warnings.push(format!(
-                "voxel size {} given by the user replaces the {} recorded in {}",
-                crate::volume::format_length(used.metres),
-                crate::volume::format_length(file.metres),
-                spec.path.display()
-            ));
-        }
-        if let Some(v) = sample.voxel_size.as_ref().filter(|v| {
-            !(USUAL_VOXEL_SIZE_M.0..=USUAL_VOXEL_SIZE_M.1).contains(&v.metres)
-        }) {
-            warnings.push(format!(
-                "voxel size {} is outside the usual range of 3D images (1 nm to 1 cm): check --voxel-size or the file's resolution; permeability scales with its square",
-                v.describe()
-            ));
-        }
+        warnings.extend(voxel_size_warnings(&sample, &spec.path));
         // Faces across the grid boundary count only for a fully periodic cell (as in `describe`).
         let surface = measure_surface(&sample.mask, [cfg.mode == BoundaryMode::PERIODIC; 3]);
         let porosity = sample.mask.porosity();
@@ -257,6 +242,31 @@ fn geometry_record(porosity: f64, s: &Surface, voxel_m: Option<f64>) -> Geometry
         kozeny_carman_md: kc_m2.map(m2_to_md),
         kozeny_constant_assumed: KOZENY_CONSTANT,
     }
+}
+
+/// Advice about the voxel size: one given on the command line that replaces the file's own,
+/// and one outside the usual range of 3D images. Shared by `estimate` and `describe`.
+pub fn voxel_size_warnings(sample: &Sample, path: &std::path::Path) -> Vec<String> {
+    let mut warnings = Vec::new();
+    if let (Some(file), Some(used)) = (&sample.overridden_voxel_size, &sample.voxel_size) {
+        warnings.push(format!(
+            "voxel size {} given by the user replaces the {} recorded in {}",
+            crate::volume::format_length(used.metres),
+            crate::volume::format_length(file.metres),
+            path.display()
+        ));
+    }
+    if let Some(v) = sample
+        .voxel_size
+        .as_ref()
+        .filter(|v| !(USUAL_VOXEL_SIZE_M.0..=USUAL_VOXEL_SIZE_M.1).contains(&v.metres))
+    {
+        warnings.push(format!(
+            "voxel size {} is outside the usual range of 3D images (1 nm to 1 cm): check --voxel-size or the file's resolution; permeability scales with its square",
+            v.describe()
+        ));
+    }
+    warnings
 }
 
 /// Advice that depends on the solve: flow regime, convergence, connectivity, resolution.

@@ -357,6 +357,16 @@ fn check_destination_for(path: &Path, flag: &str) -> Result<()> {
         })
 }
 
+/// Prints `text` on standard output. A closed or broken standard output (a reader that quit
+/// early, `>&-`) is an output error, one line and exit 3, never a panic.
+pub fn print_out(text: &str) -> Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    out.write_all(text.as_bytes())
+        .and_then(|()| out.flush())
+        .map_err(|e| voxperm::volume::output_error(Path::new("standard output"), e))
+}
+
 /// Refuses an output name whose extension says another format than the one written (`wrong`
 /// lists such extensions, lower case), naming the extension to use: a TIFF called .txt or an
 /// HTML page called .md is skipped or misread later.

@@ -101,7 +101,7 @@ pub fn run(a: BatchArgs) -> Result<i32> {
     }
     drop(progress);
     if !a.quiet {
-        print!("{}", render_text(&rows));
+        super::args::print_out(&render_text(&rows))?;
     }
     Ok(if failed > 0 { exit::PARTIAL } else { exit::OK })
 }

@@ -124,7 +124,7 @@ pub fn run_cmd(a: BenchArgs) -> Result<i32> {
                 .map_err(|e| voxperm::volume::output_error(p, e))
         })?;
     }
-    print!("{}", render(&report));
+    super::args::print_out(&render(&report))?;
     Ok(voxperm::error::exit::OK)
 }
 

@@ -79,13 +79,13 @@ pub fn run(a: CheckArgs) -> Result<i32> {
                 .map_err(|e| voxperm::volume::output_error(p, e))
         })?;
     }
-    print!("{}", render(&rows, level));
-    println!(
-        "{} of {} cases pass ({:.0} s on {threads} threads)",
+    super::args::print_out(&format!(
+        "{}{} of {} cases pass ({:.0} s on {threads} threads)\n",
+        render(&rows, level),
         rows.len() - failed,
         rows.len(),
         seconds
-    );
+    ))?;
     Ok(if failed == 0 { exit::OK } else { exit::SOLVER })
 }
 

@@ -65,6 +65,10 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     let voxels = mask.len() as u64;
     let bytes_per_sample = bytes_per_sample(&sample.sample_type);
 
+    let warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &a.sample);
+    for w in &warnings {
+        eprintln!("warning: {w}");
+    }
     let mut out = String::new();
     let [nx, ny, nz] = g.shape;
     let _ = writeln!(
@@ -179,6 +183,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
             "boundary": mode,
             "geometry": g,
             "axes": axes_json,
+            "warnings": warnings,
             "kozeny_carman_m2": g.kc_estimate_voxel2.zip(dx).map(|(k, dx)| lattice_to_m2(k, dx)),
         });
         write_atomically(p, |w| {
@@ -195,7 +200,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         .as_deref()
         .is_some_and(voxperm::volume::is_standard_output)
     {
-        print!("{out}");
+        super::args::print_out(&out)?;
     }
     Ok(voxperm::error::exit::OK)
 }

@@ -84,7 +84,7 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
         result.write(p)?;
     }
     if !quiet_summary {
-        print!("{}", summary::render(&result.report));
+        super::args::print_out(&summary::render(&result.report))?;
     }
     Ok(voxperm::error::exit::OK)
 }

@@ -100,7 +100,7 @@ pub fn write_and_report(
         })?;
     }
     if !plan.quiet {
-        print!("{}", summary(plan, structure, seed, built, &hint));
+        super::args::print_out(&summary(plan, structure, seed, built, &hint))?;
     }
     Ok(())
 }

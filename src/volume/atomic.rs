@@ -118,7 +118,24 @@ pub fn write_atomically(
 /// that cannot be followed. Commands call this before long work so a bad output path fails at
 /// once.
 pub fn check_destination(path: &Path) -> Result<()> {
-    destination(path).map(|_| ())
+    if let Destination::Replace { folder, .. } = destination(path)? {
+        // The rename needs a temporary file in the folder: try one now, so a read-only folder
+        // fails before hours of work rather than after.
+        let (probe, _file) =
+            create_temporary(&folder, "voxperm-probe", path).map_err(|e| Error::Output {
+                path: path.to_path_buf(),
+                msg: format!(
+                    "cannot write in the folder {}: {}",
+                    folder.display(),
+                    match e {
+                        Error::Output { msg, .. } => msg,
+                        other => other.to_string(),
+                    }
+                ),
+            })?;
+        drop(probe);
+    }
+    Ok(())
 }
 
 /// True when `path` would be written as a stream (standard output, a pipe, a device) rather
@@ -462,5 +479,33 @@ mod tests {
             0o600
         );
         assert_eq!(fs::read(&path).unwrap(), b"new");
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn an_unwritable_folder_fails_the_early_check() {
+        use std::os::unix::fs::PermissionsExt;
+        let dir = tempfile::tempdir().unwrap();
+        let ro = dir.path().join("ro");
+        fs::create_dir(&ro).unwrap();
+        fs::set_permissions(&ro, fs::Permissions::from_mode(0o555)).unwrap();
+        let path = ro.join("x.json");
+        // Root writes anywhere; the check then passes, as the write would.
+        let root_like = File::create(ro.join("probe")).is_ok();
+        let result = check_destination(&path);
+        fs::set_permissions(&ro, fs::Permissions::from_mode(0o755)).unwrap();
+        if root_like {
+            assert!(result.is_ok());
+        } else {
+            let msg = result.unwrap_err().to_string();
+            assert!(msg.contains("cannot write in the folder"), "{msg}");
+        }
+        let ok = dir.path().join("fine.json");
+        check_destination(&ok).unwrap();
+        assert_eq!(
+            fs::read_dir(dir.path()).unwrap().count(),
+            1,
+            "probe left behind"
+        );
     }
 }
