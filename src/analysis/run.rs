@@ -66,7 +66,7 @@ fn check_mask(mask: &PoreMask, spec: &SampleSpec) -> Result<()> {
     let msg = match mask.pore_count() {
         0 => format!("no pore voxels ({seg}); check --pore-label or --threshold"),
         n if n == mask.len() => format!(
-            "every voxel is pore ({seg}), nothing to resist the flow; check --pore-label or --threshold"
+            "every voxel is pore ({seg}): no solid phase, most likely a segmentation slip; check --pore-label or --threshold, or --crop"
         ),
         _ => return Ok(()),
     };

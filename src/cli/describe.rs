@@ -98,7 +98,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     if g.pore_voxels as u64 == voxels {
         let _ = writeln!(
             out,
-            "            every voxel is pore: estimate refuses it (nothing resists the flow); check --pore-label or --threshold"
+            "            every voxel is pore: estimate refuses it (no solid phase, most likely a segmentation slip); check --pore-label or --threshold"
         );
     }
     let mut axes_json = Vec::new();
