@@ -229,15 +229,26 @@ fn open_descriptor(_m: &fs::Metadata) -> Option<Fd> {
     None
 }
 
+/// Runs `f` on `handle` behind a buffer and flushes it; returns the handle.
+fn write_buffered(
+    handle: File,
+    path: &Path,
+    f: impl FnOnce(&mut BufWriter<File>) -> Result<()>,
+) -> Result<File> {
+    let mut writer = BufWriter::new(handle);
+    f(&mut writer)?;
+    writer
+        .into_inner()
+        .map_err(|e| output_error(path, e.error()))
+}
+
 /// Writes to an open descriptor or stream, without a temporary file.
 fn write_through(
     handle: File,
     path: &Path,
     f: impl FnOnce(&mut BufWriter<File>) -> Result<()>,
 ) -> Result<()> {
-    let mut writer = BufWriter::new(handle);
-    f(&mut writer)?;
-    writer.flush().map_err(|e| output_error(path, e))
+    write_buffered(handle, path, f).map(drop)
 }
 
 /// A `File` on a duplicate of this process's standard output or error.
@@ -312,14 +323,9 @@ fn write_and_sync(
     path: &Path,
     f: impl FnOnce(&mut BufWriter<File>) -> Result<()>,
 ) -> Result<()> {
-    let mut writer = BufWriter::new(file);
-    f(&mut writer)?;
-    writer.flush().map_err(|e| output_error(path, e))?;
+    let file = write_buffered(file, path, f)?;
     // Without the sync a power loss after the rename can leave an empty file under the real name.
-    writer
-        .get_ref()
-        .sync_all()
-        .map_err(|e| output_error(path, e))
+    file.sync_all().map_err(|e| output_error(path, e))
 }
 
 #[cfg(test)]
