@@ -155,6 +155,21 @@ fn rerun_redoes_only_missing_or_changed_samples() {
     assert_eq!(stderr.matches("skipped").count(), 0, "{stderr}");
 }
 
+/// A batch of `scans` into `res` whose 32³ sample takes seconds (f32 populations never reach
+/// the tolerance, so it runs the 3000 steps), for tests that interrupt it.
+const SLOW_BATCH: [&str; 10] = [
+    "batch",
+    "scans",
+    "--out",
+    "res",
+    "--periodic",
+    "--tolerance",
+    "1e-12",
+    "--max-steps",
+    "3000",
+    "--quiet",
+];
+
 /// Waits until a running batch has written `first`, so an interrupt lands in a later sample.
 fn wait_for_first_result(child: &mut std::process::Child, first: &Path) {
     let start = Instant::now();
@@ -180,18 +195,7 @@ fn a_killed_batch_resumes_with_the_unfinished_samples() {
     write_mask(&s, "s1.tif", &sphere_cell(12, 4.0));
     write_mask(&s, "s2.tif", &sphere_cell(32, 11.0));
     write_mask(&s, "s3.tif", &sphere_cell(12, 3.0));
-    let args = [
-        "batch",
-        "scans",
-        "--out",
-        "res",
-        "--periodic",
-        "--tolerance",
-        "1e-12",
-        "--max-steps",
-        "3000",
-        "--quiet",
-    ];
+    let args = SLOW_BATCH;
     let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
         .current_dir(dir.path())
         .args(args)
@@ -244,18 +248,7 @@ fn an_interrupted_batch_says_how_to_resume() {
     write_mask(&s, "s2.tif", &sphere_cell(32, 11.0));
     let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
         .current_dir(dir.path())
-        .args([
-            "batch",
-            "scans",
-            "--out",
-            "res",
-            "--periodic",
-            "--tolerance",
-            "1e-12",
-            "--max-steps",
-            "3000",
-            "--quiet",
-        ])
+        .args(SLOW_BATCH)
         .stderr(std::process::Stdio::piped())
         .spawn()
         .expect("spawn");
