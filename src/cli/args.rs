@@ -300,13 +300,19 @@ pub fn check_output_path(path: &Path, flag: &str) -> Result<()> {
             path.display()
         )));
     }
-    check_destination_for(path, flag)
+    check_json_output(path, flag)
 }
 
 /// As [`check_output_path`], also accepting standard output (`-`): for the JSON of commands
 /// that then print nothing else there.
 pub fn check_json_output(path: &Path, flag: &str) -> Result<()> {
-    check_destination_for(path, flag)
+    voxperm::volume::check_destination(path).map_err(|e| match e {
+        Error::Output { path, msg } => Error::Output {
+            path,
+            msg: format!("{flag}: {msg}"),
+        },
+        other => other,
+    })
 }
 
 /// As [`check_output_path`], for outputs that must be regular files: re-read after writing, or
@@ -343,18 +349,6 @@ pub fn check_distinct_outputs(outputs: &[(&Path, &str)]) -> Result<()> {
         }
     }
     Ok(())
-}
-
-fn check_destination_for(path: &Path, flag: &str) -> Result<()> {
-    voxperm::volume::check_destination(path)
-        .map(|_| ())
-        .map_err(|e| match e {
-            Error::Output { path, msg } => Error::Output {
-                path,
-                msg: format!("{flag}: {msg}"),
-            },
-            other => other,
-        })
 }
 
 /// Prints `text` on standard output. A closed or broken standard output (a reader that quit

@@ -348,33 +348,21 @@ fn too_large(sample: [usize; 3], stride: usize, need: u64, limit: u64) -> Error 
     }
 }
 
-/// Fails early, before any work, when the output folder does not exist or the name is not `.vti`
-/// (viewers pick the reader by extension).
+/// Fails early, before any work, when the name is not `.vti` (viewers pick the reader by
+/// extension) or the file could not be written (the shared output check: folder missing or
+/// not writable, a folder, a link to nothing).
 fn check_destination(path: &Path) -> Result<()> {
-    let out = |msg: String| Error::Output {
-        path: path.to_path_buf(),
-        msg,
-    };
     let is_vti = path
         .extension()
         .and_then(|e| e.to_str())
         .is_some_and(|e| e.eq_ignore_ascii_case("vti"));
     if !is_vti {
-        return Err(out("a VTK image-data file needs the .vti extension".into()));
+        return Err(Error::Output {
+            path: path.to_path_buf(),
+            msg: "a VTK image-data file needs the .vti extension".into(),
+        });
     }
-    let folder = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p,
-        _ => Path::new("."),
-    };
-    if !folder.is_dir() {
-        let what = if folder.exists() {
-            "is a file, not a folder"
-        } else {
-            "does not exist"
-        };
-        return Err(out(format!("the folder {} {what}", folder.display())));
-    }
-    Ok(())
+    crate::volume::check_destination(path)
 }
 
 /// Passes bytes through and inserts `payload` right after the first `<ImageData …>` start tag,
