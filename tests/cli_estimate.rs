@@ -566,6 +566,31 @@ fn json_dash_goes_to_standard_output() {
     assert!(!std::path::Path::new("-").exists());
 }
 
+/// With the JSON on standard output the summary is left out, but its warnings still reach the
+/// user, on standard error.
+#[test]
+fn json_dash_keeps_the_warnings_on_standard_error() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--periodic",
+        "--voxel-size",
+        "3cm",
+        "--json",
+        "-",
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let v: serde_json::Value = serde_json::from_str(&stdout).unwrap();
+    let in_json = v["warnings"].as_array().unwrap();
+    assert!(!in_json.is_empty(), "{stdout}");
+    for w in in_json {
+        let w = w.as_str().unwrap();
+        assert!(stderr.contains(&format!("warning: {w}")), "{w}\n{stderr}");
+    }
+}
+
 /// describe reports an all-pore volume's geometry and says that estimate will refuse it.
 #[test]
 fn describe_flags_an_all_pore_volume() {

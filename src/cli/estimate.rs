@@ -65,11 +65,12 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     if let (Some(j), Some(v)) = (&a.json, &a.vtk) {
         check_distinct_outputs(&[(j, "--json"), (v, "--vtk")])?;
     }
-    // JSON on standard output: the summary would corrupt it, so it is not printed.
-    let quiet_summary = a.quiet
-        || a.json
-            .as_deref()
-            .is_some_and(voxperm::volume::is_standard_output);
+    // JSON on standard output: the summary would corrupt it, so it is not printed; its
+    // warnings go to standard error instead.
+    let json_on_stdout = a
+        .json
+        .as_deref()
+        .is_some_and(voxperm::volume::is_standard_output);
     let spec = SampleSpec {
         path: a.sample.clone(),
         raw: plan.raw,
@@ -83,8 +84,14 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     if let Some(p) = &a.json {
         result.write(p)?;
     }
-    if !quiet_summary {
-        super::args::print_out(&summary::render(&result.report))?;
+    if !a.quiet {
+        if json_on_stdout {
+            for w in &result.report.warnings {
+                eprintln!("warning: {w}");
+            }
+        } else {
+            super::args::print_out(&summary::render(&result.report))?;
+        }
     }
     Ok(voxperm::error::exit::OK)
 }
