@@ -98,14 +98,16 @@ pub fn main() -> i32 {
 /// partial output is left (finished files stay), say so in one line and exit 130.
 fn on_interrupt(advice: &'static str) {
     let installed = ctrlc::set_handler(move || {
-        voxperm::volume::remove_pending_temporaries();
+        let removed = voxperm::volume::remove_pending_temporaries();
         // Never panic here (stderr may be a closed pipe or a hung-up terminal): a panic would
         // end this thread with the pending list locked, and the run would go on and hang.
         use std::io::Write;
-        let _ = writeln!(
-            std::io::stderr(),
-            "\nvoxperm: interrupted; temporary files of unfinished outputs removed{advice}"
-        );
+        let what = match removed {
+            0 => String::new(),
+            1 => "; the unfinished output was removed".to_string(),
+            n => format!("; {n} unfinished outputs were removed"),
+        };
+        let _ = writeln!(std::io::stderr(), "\nvoxperm: interrupted{what}{advice}");
         std::process::exit(exit::INTERRUPTED);
     });
     // Without the handler an interrupt still ends the run (exit 130 by the shell's count), only

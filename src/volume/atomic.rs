@@ -23,13 +23,16 @@ fn pending() -> std::sync::MutexGuard<'static, Vec<PathBuf>> {
 
 /// Removes the temporary files of every write still in progress, for an interrupt handler
 /// about to end the process, and keeps new ones from starting: returns with the list locked
-/// until the process exits. The destinations keep whatever they held before.
-pub fn remove_pending_temporaries() {
+/// until the process exits. The destinations keep whatever they held before. Returns how many
+/// temporary files it removed.
+pub fn remove_pending_temporaries() -> usize {
     let mut list = pending();
-    for tmp in list.drain(..) {
-        let _ = fs::remove_file(tmp);
-    }
+    let removed = list
+        .drain(..)
+        .filter(|tmp| fs::remove_file(tmp).is_ok())
+        .count();
     std::mem::forget(list);
+    removed
 }
 
 /// A temporary file on the pending list: removed (file and entry) when dropped unless it was
