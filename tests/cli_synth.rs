@@ -162,7 +162,7 @@ fn every_kind_writes_the_porosity_it_prints_and_records() {
             panic!("{name}: not u8")
         };
         assert!(bytes.iter().all(|&b| b == 0 || b == 255), "{name}");
-        let mask = segment(&vol, &Segmentation::default()).unwrap();
+        let mask = segment(&vol, &Segmentation::default(), None).unwrap();
         let from_file = mask.porosity();
         let recorded = v["porosity"].as_f64().unwrap();
         assert!(

@@ -111,7 +111,9 @@ fn check_documented_geometry(text: &str, path: &Path) {
     let name = path.file_name().unwrap().to_str().unwrap();
     let row = table_row(text, name);
     let vol = load(path, None, &ReadLimits::new(1 << 30)).unwrap();
-    let phi = segment(&vol, &Segmentation::default()).unwrap().porosity();
+    let phi = segment(&vol, &Segmentation::default(), None)
+        .unwrap()
+        .porosity();
     let documented: f64 = row[column(text, "porosity")].parse().unwrap();
     assert!(
         (phi - documented).abs() <= 5e-5,

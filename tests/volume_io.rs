@@ -605,14 +605,14 @@ fn huge_claimed_size_is_refused_before_allocating() {
 #[test]
 fn unknown_label_names_label_and_present_values() {
     let vol = Volume::new([4, 1, 1], VoxelData::U8(vec![1, 2, 2, 7])).unwrap();
-    match segment(&vol, &Segmentation::default()) {
+    match segment(&vol, &Segmentation::default(), None) {
         Err(Error::Usage(msg)) => {
             assert!(msg.contains("label 0"), "{msg}");
             assert!(msg.contains("1, 2, 7"), "{msg}");
         }
         other => panic!("expected a usage error, got {other:?}"),
     }
-    let mask = segment(&vol, &Segmentation::Labels(vec![2, 7])).unwrap();
+    let mask = segment(&vol, &Segmentation::Labels(vec![2, 7]), None).unwrap();
     assert_eq!(mask.as_slice(), &[false, true, true, true]);
 }
 

@@ -82,6 +82,18 @@ pub struct Crop {
     pub ranges: [Range<usize>; 3],
 }
 
+/// The box as `--crop` takes it: `x0:x1,y0:y1,z0:z1`.
+impl std::fmt::Display for Crop {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let [x, y, z] = &self.ranges;
+        write!(
+            f,
+            "{}:{},{}:{},{}:{}",
+            x.start, x.end, y.start, y.end, z.start, z.end
+        )
+    }
+}
+
 impl Crop {
     /// Parses `s` and checks it against `shape` in one step.
     pub fn parse(s: &str, shape: [usize; 3]) -> Result<Crop> {

@@ -42,10 +42,12 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
     let mut vol = load(&spec.path, spec.raw.as_ref(), limits)?;
     let file_shape = vol.shape;
     let mut crop_origin = [0; 3];
+    let mut cropped = None;
     if let Some(c) = &spec.crop {
         let c = c.resolve(vol.shape)?;
         crop_origin = c.ranges.clone().map(|r| r.start);
         vol = crop(&vol, &c);
+        cropped = Some(c);
     }
     let mut overridden_voxel_size = None;
     if let Some(m) = spec.voxel_size_m {
@@ -55,7 +57,7 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
             .filter(|v| (v.metres - m).abs() > 1e-6 * m);
         vol.set_user_voxel_size(m)?;
     }
-    let mask = segment(&vol, &spec.segmentation).map_err(|e| match e {
+    let mask = segment(&vol, &spec.segmentation, cropped.as_ref()).map_err(|e| match e {
         Error::Usage(msg) | Error::BadVolume(msg) => Error::bad_input(&spec.path, msg),
         other => other,
     })?;

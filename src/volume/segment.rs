@@ -4,6 +4,7 @@
 
 use std::fmt;
 
+use super::crop::Crop;
 use super::{Volume, VoxelData};
 use crate::geometry::PoreMask;
 use crate::{Error, Result};
@@ -63,14 +64,14 @@ impl fmt::Display for Segmentation {
     }
 }
 
-/// Segments `vol` by `rule`.
-pub fn segment(vol: &Volume, rule: &Segmentation) -> Result<PoreMask> {
+/// Segments `vol` by `rule`; `crop` is the box `vol` was cut to, if any, for the messages.
+pub fn segment(vol: &Volume, rule: &Segmentation, crop: Option<&Crop>) -> Result<PoreMask> {
     let pore = match rule {
         Segmentation::Labels(labels) => {
             if labels.is_empty() {
                 return Err(Error::Usage("give at least one pore label".into()));
             }
-            check_labels_present(&vol.data, labels)?;
+            check_labels_present(&vol.data, labels, crop)?;
             by_labels(&vol.data, labels)
         }
         Segmentation::Threshold { t, pore_below } => {
@@ -124,7 +125,7 @@ fn by_threshold(data: &VoxelData, t: f64, pore_below: bool) -> Vec<bool> {
 const LIST_MAX: usize = 10;
 
 /// Fails naming the first label that never occurs, with the values that do.
-fn check_labels_present(data: &VoxelData, labels: &[u32]) -> Result<()> {
+fn check_labels_present(data: &VoxelData, labels: &[u32], crop: Option<&Crop>) -> Result<()> {
     let seen = seen_table(data);
     let occurs = |label: u32| match (&seen, data) {
         (Some(seen), _) => usize::try_from(label)
@@ -147,15 +148,19 @@ fn check_labels_present(data: &VoxelData, labels: &[u32]) -> Result<()> {
     let uniform = seen
         .as_ref()
         .is_some_and(|seen| seen.iter().filter(|&&b| b).count() == 1);
+    let (region, whole) = match crop {
+        Some(c) => (format!("the crop {c}"), "the crop is"),
+        None => ("the volume".to_string(), "the image is"),
+    };
     let hint = if uniform {
-        "; the image holds that one value only, so it is all solid for this label (or not segmented)"
+        format!("; that one value only, so {whole} all solid for this label (or not segmented)")
     } else if all_integer {
-        ""
+        String::new()
     } else {
-        "; this float image may need a threshold instead of labels"
+        "; this float image may need a threshold instead of labels".to_string()
     };
     Err(Error::Usage(format!(
-        "unknown pore label {missing}: it does not occur in the volume; values present: {listing}{hint}"
+        "unknown pore label {missing}: it does not occur in {region}; values present: {listing}{hint}"
     )))
 }
 
@@ -228,16 +233,16 @@ mod tests {
     #[test]
     fn labels_select_pore() {
         let v = vol(VoxelData::U8(vec![0, 1, 2, 0, 3]));
-        let m = segment(&v, &Segmentation::default()).unwrap();
+        let m = segment(&v, &Segmentation::default(), None).unwrap();
         assert_eq!(m.as_slice(), &[true, false, false, true, false]);
-        let m = segment(&v, &Segmentation::parse_labels("1, 3").unwrap()).unwrap();
+        let m = segment(&v, &Segmentation::parse_labels("1, 3").unwrap(), None).unwrap();
         assert_eq!(m.as_slice(), &[false, true, false, false, true]);
     }
 
     #[test]
     fn unknown_label_lists_present_values() {
         let v = vol(VoxelData::U16(vec![1, 2, 2, 300]));
-        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default()) else {
+        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default(), None) else {
             panic!("expected a usage error");
         };
         assert!(msg.contains("unknown pore label 0"), "{msg}");
@@ -245,22 +250,35 @@ mod tests {
         assert!(!msg.contains("all solid"), "{msg}");
         // One value only: said to be all solid for the label.
         let v = vol(VoxelData::U8(vec![255, 255, 255, 255]));
-        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default()) else {
+        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default(), None) else {
             panic!("expected a usage error");
         };
         assert!(
             msg.contains("values present: 255") && msg.contains("all solid"),
             "{msg}"
         );
+        // Cut to a crop: the message names the crop, not the volume.
+        let crop = Crop {
+            ranges: [0..2, 0..1, 0..1],
+        };
+        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default(), Some(&crop)) else {
+            panic!("expected a usage error");
+        };
+        assert!(
+            msg.contains("does not occur in the crop 0:2,0:1,0:1")
+                && msg.contains("the crop is all solid")
+                && !msg.contains("volume"),
+            "{msg}"
+        );
         // A label beyond the sample range can never occur.
         let v = vol(VoxelData::U8(vec![0, 1]));
-        assert!(segment(&v, &Segmentation::Labels(vec![256])).is_err());
+        assert!(segment(&v, &Segmentation::Labels(vec![256]), None).is_err());
     }
 
     #[test]
     fn long_listing_is_truncated() {
         let v = vol(VoxelData::U8((1..=40).collect()));
-        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default()) else {
+        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default(), None) else {
             panic!()
         };
         assert!(
@@ -272,12 +290,12 @@ mod tests {
     #[test]
     fn float_labels_and_listing() {
         let v = vol(VoxelData::F32(vec![0.0, 1.0, 1.0, f32::NAN]));
-        let m = segment(&v, &Segmentation::Labels(vec![1])).unwrap();
+        let m = segment(&v, &Segmentation::Labels(vec![1]), None).unwrap();
         assert_eq!(m.as_slice(), &[false, true, true, false]);
         let v = vol(VoxelData::F32((0..50).map(|i| i as f32 * 0.5).collect()));
         // 24.0 is the 49th value, beyond the listed ones, so it must still be found.
-        assert!(segment(&v, &Segmentation::Labels(vec![24])).is_ok());
-        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::Labels(vec![7, 99])) else {
+        assert!(segment(&v, &Segmentation::Labels(vec![24]), None).is_ok());
+        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::Labels(vec![7, 99]), None) else {
             panic!()
         };
         assert!(msg.contains("label 99"), "{msg}");
@@ -297,11 +315,11 @@ mod tests {
             pore_below: false,
         };
         assert_eq!(
-            segment(&v, &below).unwrap().as_slice(),
+            segment(&v, &below, None).unwrap().as_slice(),
             &[true, false, false, false]
         );
         assert_eq!(
-            segment(&v, &above).unwrap().as_slice(),
+            segment(&v, &above, None).unwrap().as_slice(),
             &[false, false, true, false]
         );
         let v = vol(VoxelData::U16(vec![10, 200, 60000]));
@@ -311,6 +329,7 @@ mod tests {
                 t: 100.0,
                 pore_below: false,
             },
+            None,
         )
         .unwrap();
         assert_eq!(m.as_slice(), &[false, true, true]);
@@ -318,6 +337,6 @@ mod tests {
             t: f64::NAN,
             pore_below: true,
         };
-        assert!(matches!(segment(&v, &bad), Err(Error::Usage(_))));
+        assert!(matches!(segment(&v, &bad, None), Err(Error::Usage(_))));
     }
 }
