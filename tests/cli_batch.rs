@@ -499,6 +499,27 @@ fn report_reads_single_estimate_results_too() {
     let (code, _, stderr) = run_in(dir.path(), &["report", "cell.json"]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("--out"), "{stderr}");
+    // A Markdown plot file that would replace the HTML page is refused before anything is
+    // written.
+    let (code, _, stderr) = run_in(
+        dir.path(),
+        &[
+            "report",
+            "cell.json",
+            "--markdown",
+            "m.md",
+            "--out",
+            "m-permeability-bars.svg",
+        ],
+    );
+    assert_eq!(code, 2, "{stderr}");
+    assert!(
+        stderr.contains("a plot of --markdown and --out name the same file"),
+        "{stderr}"
+    );
+    assert!(
+        !dir.path().join("m.md").exists() && !dir.path().join("m-permeability-bars.svg").exists()
+    );
 }
 
 fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {

@@ -74,10 +74,7 @@ pub fn run(a: ReportArgs) -> Result<i32> {
         ));
     }
     let doc = build(&a.title, &entries, failed)?;
-    if let Some(p) = &a.out {
-        write_text(p, &html::render(&doc))?;
-    }
-    if let Some(p) = &a.markdown {
+    let markdown = a.markdown.as_ref().map(|p| {
         // The plots go beside the file the Markdown lands in (a link's target, if it is one),
         // where its relative image links point.
         let lands = voxperm::volume::resolved_destination(p).unwrap_or_else(|| p.clone());
@@ -86,12 +83,45 @@ pub fn run(a: ReportArgs) -> Result<i32> {
             .map_or("report".into(), |s| s.to_string_lossy().into_owned());
         let (text, files) = markdown::render(&doc, &stem);
         let folder = lands.parent().unwrap_or(Path::new(""));
-        for (name, svg) in files {
-            write_text(&folder.join(name), &svg)?;
+        let plots: Vec<(PathBuf, String)> = files
+            .into_iter()
+            .map(|(name, svg)| (folder.join(name), svg))
+            .collect();
+        (p, text, plots)
+    });
+    if let Some((_, _, plots)) = &markdown {
+        check_plot_names(a.out.as_deref(), &a.inputs, plots)?;
+    }
+    if let Some(p) = &a.out {
+        write_text(p, &html::render(&doc))?;
+    }
+    if let Some((p, text, plots)) = &markdown {
+        for (path, svg) in plots {
+            write_text(path, svg)?;
         }
-        write_text(p, &text)?;
+        write_text(p, text)?;
     }
     Ok(voxperm::error::exit::OK)
+}
+
+/// Refuses plot files of the Markdown report that would replace the HTML report or one of the
+/// inputs (`--out report-permeability.svg`, say). Earlier plots of the same name are replaced:
+/// they are this report's own, from a previous run.
+fn check_plot_names(
+    out: Option<&Path>,
+    inputs: &[PathBuf],
+    plots: &[(PathBuf, String)],
+) -> Result<()> {
+    let others = out
+        .map(|o| (o, "--out"))
+        .into_iter()
+        .chain(inputs.iter().map(|i| (i.as_path(), "an input")));
+    for (other, flag) in others {
+        for (plot, _) in plots {
+            check_distinct_outputs(&[(plot, "a plot of --markdown"), (other, flag)])?;
+        }
+    }
+    Ok(())
 }
 
 fn write_text(path: &Path, text: &str) -> Result<()> {
