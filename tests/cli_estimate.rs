@@ -650,6 +650,29 @@ fn outputs_keep_redirected_logs_and_distinct_files() {
     ]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("name the same file"), "{stderr}");
+    // Hard links are one file too: of another output, and of the input.
+    std::fs::write(dir.path().join("a.json"), "{}").unwrap();
+    std::fs::hard_link(dir.path().join("a.json"), dir.path().join("b.vti")).unwrap();
+    let (code, _, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--json",
+        dir.path().join("a.json").to_str().unwrap(),
+        "--vtk",
+        dir.path().join("b.vti").to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("name the same file"), "{stderr}");
+    let twin = dir.path().join("twin.tif");
+    std::fs::hard_link(&sample, &twin).unwrap();
+    let (code, _, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--json",
+        twin.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("is the input sample itself"), "{stderr}");
     let (code, _, stderr) = run(&["estimate", sample.to_str().unwrap(), "--vtk", "-"]);
     assert_eq!(code, 2, "{stderr}");
     assert!(

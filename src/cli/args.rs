@@ -229,11 +229,7 @@ pub const MAX_THREADS: usize = 1024;
 
 /// Refuses an output that would overwrite the input (e.g. `--json scan.tif` for `scan.tif`).
 pub fn check_not_input(output: &Path, input: &Path, flag: &str) -> Result<()> {
-    let same = match (std::fs::canonicalize(output), std::fs::canonicalize(input)) {
-        (Ok(o), Ok(i)) => o == i,
-        _ => false,
-    };
-    if same {
+    if voxperm::volume::same_existing_file(output, input) {
         return Err(Error::Usage(format!(
             "{flag} {} is the input sample itself; choose another output file",
             output.display()
@@ -339,7 +335,7 @@ pub fn check_distinct_outputs(outputs: &[(&Path, &str)]) -> Result<()> {
             ) {
                 (Some(x), Some(y)) => x == y,
                 _ => a == b && voxperm::volume::is_standard_output(a),
-            };
+            } || voxperm::volume::same_existing_file(a, b);
             if same {
                 return Err(Error::Usage(format!(
                     "{fa} and {fb} name the same file ({}); give two different names",

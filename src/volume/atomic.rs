@@ -168,6 +168,27 @@ pub fn resolved_destination(path: &Path) -> Option<PathBuf> {
     }
 }
 
+/// True when `a` and `b` both exist and are one regular file: the same device and inode, so
+/// hard links and paths through links count as one. (Devices such as /dev/null are shared by
+/// design.)
+pub fn same_existing_file(a: &Path, b: &Path) -> bool {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        match (fs::metadata(a), fs::metadata(b)) {
+            (Ok(x), Ok(y)) => x.is_file() && x.dev() == y.dev() && x.ino() == y.ino(),
+            _ => false,
+        }
+    }
+    #[cfg(not(unix))]
+    {
+        matches!(
+            (fs::canonicalize(a), fs::canonicalize(b)),
+            (Ok(x), Ok(y)) if x == y && x.is_file()
+        )
+    }
+}
+
 fn destination(path: &Path) -> Result<Destination> {
     let out = |msg: String| Error::Output {
         path: path.to_path_buf(),
