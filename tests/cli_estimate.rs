@@ -679,6 +679,9 @@ fn outputs_keep_redirected_logs_and_distinct_files() {
         stderr.contains("standard output takes only the JSON"),
         "{stderr}"
     );
+    // A device has no name to check: the .vti rule is for files.
+    let (code, _, stderr) = run(&["estimate", sample.to_str().unwrap(), "--vtk", "/dev/null"]);
+    assert_eq!(code, 0, "{stderr}");
     let (code, stdout, stderr) = run(&["describe", sample.to_str().unwrap(), "--json", "-"]);
     assert_eq!(code, 0, "{stderr}");
     let v: serde_json::Value = serde_json::from_str(&stdout).unwrap();

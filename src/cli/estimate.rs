@@ -104,11 +104,12 @@ fn vtk_request(a: &EstimateArgs) -> Result<Option<VtkRequest>> {
     let Some(p) = &a.vtk else { return Ok(None) };
     check_output_path(p, "--vtk")?;
     check_not_input(p, &a.sample, "--vtk")?;
-    if !p
+    // The name rule is for files a viewer opens later; a pipe or device (/dev/null) has none.
+    let vti = p
         .extension()
         .and_then(|e| e.to_str())
-        .is_some_and(|e| e.eq_ignore_ascii_case("vti"))
-    {
+        .is_some_and(|e| e.eq_ignore_ascii_case("vti"));
+    if !vti && !voxperm::volume::is_stream(p) {
         return Err(Error::Usage(format!(
             "--vtk {}: the file name must end in .vti (VTK XML image data)",
             p.display()

@@ -348,15 +348,15 @@ fn too_large(sample: [usize; 3], stride: usize, need: u64, limit: u64) -> Error 
     }
 }
 
-/// Fails early, before any work, when the name is not `.vti` (viewers pick the reader by
-/// extension) or the file could not be written (the shared output check: folder missing or
+/// Fails early, before any work, when the name of a file is not `.vti` (viewers pick the reader
+/// by extension; a pipe or device has no such reader) or the file could not be written (the shared output check: folder missing or
 /// not writable, a folder, a link to nothing).
 fn check_destination(path: &Path) -> Result<()> {
     let is_vti = path
         .extension()
         .and_then(|e| e.to_str())
         .is_some_and(|e| e.eq_ignore_ascii_case("vti"));
-    if !is_vti {
+    if !is_vti && !crate::volume::is_stream(path) {
         return Err(Error::Output {
             path: path.to_path_buf(),
             msg: "a VTK image-data file needs the .vti extension".into(),
