@@ -395,6 +395,40 @@ fn manifest_mistakes_stop_the_batch_before_any_solve() {
     );
 }
 
+/// A log reader that quit (`batch … 2>&1 | head -1`) must not stop the batch or make it panic:
+/// with standard error a broken pipe from the start, every sample still runs and the summary
+/// agrees with the result files.
+#[test]
+fn batch_runs_on_when_standard_error_is_a_broken_pipe() {
+    let dir = tempfile::tempdir().unwrap();
+    let s = dir.path().join("scans");
+    std::fs::create_dir(&s).unwrap();
+    write_mask(&s, "a.tif", &sphere_cell(10, 3.0));
+    write_mask(&s, "b.tif", &sphere_cell(10, 4.0));
+    let (reader, writer) = std::io::pipe().unwrap();
+    drop(reader);
+    let mut args = vec!["batch", "scans", "--out", "res"];
+    args.extend_from_slice(&FAST);
+    let out = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
+        .current_dir(dir.path())
+        .args(&args)
+        .stderr(writer)
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stdout)
+    );
+    let summary = json(&dir.path().join("res/summary.json"));
+    let text = summary.to_string();
+    assert!(!text.contains("pending"), "{text}");
+    for name in ["a", "b"] {
+        assert!(dir.path().join(format!("res/{name}.json")).exists());
+    }
+}
+
 #[test]
 fn report_is_self_contained_with_table_plots_methods_and_cautions() {
     let dir = tempfile::tempdir().unwrap();

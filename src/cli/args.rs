@@ -347,6 +347,13 @@ pub fn check_distinct_outputs(outputs: &[(&Path, &str)]) -> Result<()> {
     Ok(())
 }
 
+/// Prints one line on standard error, ignoring a closed or broken stderr: diagnostics that
+/// cannot be shown (a log reader that quit, `2>&-`) must not stop a run or make it panic.
+pub fn note(line: impl std::fmt::Display) {
+    use std::io::Write;
+    let _ = writeln!(std::io::stderr(), "{line}");
+}
+
 /// Prints `text` on standard output. A closed or broken standard output (a reader that quit
 /// early, `>&-`) is an output error, one line and exit 3, never a panic.
 pub fn print_out(text: &str) -> Result<()> {

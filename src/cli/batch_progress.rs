@@ -71,7 +71,7 @@ impl BatchProgress {
             return;
         }
         let Some((multi, overall, _)) = &self.bars else {
-            eprintln!("{line}");
+            super::args::note(line);
             return;
         };
         let _ = multi.println(line);

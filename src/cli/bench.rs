@@ -112,7 +112,7 @@ pub fn run_cmd(a: BenchArgs) -> Result<i32> {
     let quiet = a.quiet;
     let report = run(&cfg, &mut |msg| {
         if !quiet {
-            eprintln!("bench: {msg}");
+            super::args::note(format_args!("bench: {msg}"));
         }
     })?;
     if let Some(p) = &a.json {

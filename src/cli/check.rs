@@ -52,7 +52,7 @@ pub fn run(a: CheckArgs) -> Result<i32> {
     let rows = pool.install(|| {
         run_all(level, max_memory, |i, n, case| {
             if !quiet {
-                eprintln!("[{}/{n}] {}", i + 1, case.name);
+                super::args::note(format_args!("[{}/{n}] {}", i + 1, case.name));
             }
         })
     });

@@ -67,7 +67,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
 
     let warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &a.sample);
     for w in &warnings {
-        eprintln!("warning: {w}");
+        super::args::note(format_args!("warning: {w}"));
     }
     let mut out = String::new();
     let [nx, ny, nz] = g.shape;

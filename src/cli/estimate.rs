@@ -87,7 +87,7 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     if !a.quiet {
         if json_on_stdout {
             for w in &result.report.warnings {
-                eprintln!("warning: {w}");
+                super::args::note(format_args!("warning: {w}"));
             }
         } else {
             super::args::print_out(&summary::render(&result.report))?;

@@ -67,7 +67,7 @@ pub fn main() -> i32 {
                 let _ = e.print();
                 return exit::OK;
             }
-            eprintln!("voxperm: {}", one_line_usage(&e.to_string()));
+            args::note(format_args!("voxperm: {}", one_line_usage(&e.to_string())));
             return exit::USAGE;
         }
     };
@@ -88,7 +88,7 @@ pub fn main() -> i32 {
     match result {
         Ok(code) => code,
         Err(e) => {
-            eprintln!("voxperm: error: {e}");
+            args::note(format_args!("voxperm: error: {e}"));
             e.exit_code()
         }
     }

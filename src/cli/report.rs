@@ -196,7 +196,7 @@ fn from_folder(folder: &Path) -> Result<Collected> {
         match ResultView::read(&f) {
             Ok(r) => entries.push(entry(&f, r)),
             // Other JSON files may share the folder; they are not ours to report.
-            Err(e) => eprintln!("voxperm: warning: skipped {e}"),
+            Err(e) => super::args::note(format_args!("voxperm: warning: skipped {e}")),
         }
     }
     let summary = folder.join("summary.json");
