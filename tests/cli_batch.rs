@@ -395,6 +395,34 @@ fn manifest_mistakes_stop_the_batch_before_any_solve() {
     );
 }
 
+/// A folder batch with `--raw-shape` runs the folder's TIFF stacks as well as its raw files
+/// (docs/batch-manifest.md); the raw layout applies to the raw files only.
+#[test]
+fn folder_batch_with_raw_shape_keeps_the_tiff_stacks() {
+    let dir = tempfile::tempdir().unwrap();
+    let s = dir.path().join("scans");
+    std::fs::create_dir(&s).unwrap();
+    write_mask(&s, "stack.tif", &sphere_cell(10, 3.0));
+    // A raw u8 volume 12x10x10 (x fastest), label 0 = pore: a cell with a solid sphere.
+    let cell = sphere_cell(12, 4.0);
+    let raw: Vec<u8> = (0..10)
+        .flat_map(|z| (0..10).flat_map(move |y| (0..12).map(move |x| (x, y, z))))
+        .map(|(x, y, z)| u8::from(!cell.is_pore(x, y, z)))
+        .collect();
+    std::fs::write(s.join("block.raw"), raw).unwrap();
+    let (code, stdout, stderr) = batch(dir.path(), "scans", "res", &["--raw-shape", "12x10x10"]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let summary = json(&dir.path().join("res/summary.json")).to_string();
+    assert!(
+        summary.contains("\"stack\"") && summary.contains("\"block\""),
+        "{summary}"
+    );
+    let stack = json(&dir.path().join("res/stack.json"));
+    assert_eq!(stack["input"]["shape"].to_string(), "[10,10,10]");
+    let block = json(&dir.path().join("res/block.json"));
+    assert_eq!(block["input"]["shape"].to_string(), "[12,10,10]");
+}
+
 /// A log reader that quit (`batch … 2>&1 | head -1`) must not stop the batch or make it panic:
 /// with standard error a broken pipe from the start, every sample still runs and the summary
 /// agrees with the result files.

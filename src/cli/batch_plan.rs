@@ -283,10 +283,10 @@ pub fn from_folder(
             .extension()
             .map(|e| e.to_string_lossy().to_ascii_lowercase());
         let wanted = if path.is_dir() {
-            !raw && slice_files(&path).is_ok_and(|f| !f.is_empty())
+            slice_files(&path).is_ok_and(|f| !f.is_empty())
         } else {
             match ext.as_deref() {
-                Some("tif" | "tiff") => !raw,
+                Some("tif" | "tiff") => true,
                 Some("raw") => raw,
                 _ => false,
             }
@@ -304,16 +304,25 @@ pub fn from_folder(
     paths.sort_by(|a, b| natural_cmp(&key(a), &key(b)));
     if paths.is_empty() {
         let what = if raw {
-            "no .raw files"
+            "no TIFF stacks (.tif, .tiff), slice folders or .raw files"
         } else {
-            "no TIFF stacks (.tif, .tiff) or slice folders"
+            "no TIFF stacks (.tif, .tiff) or slice folders (.raw files need --raw-shape)"
         };
         return Err(Error::bad_input(folder, format!("{what} to run")));
     }
     let layer = Layered::from_cli(input, axis, boundary)?;
     let planned = paths
         .into_iter()
-        .map(|p| layer.plan(default_name(&p), p))
+        .map(|p| {
+            let is_raw =
+                p.is_file() && p.extension().is_some_and(|e| e.eq_ignore_ascii_case("raw"));
+            let mut planned = layer.plan(default_name(&p), p)?;
+            // The raw layout describes the .raw files; stacks and slice folders carry their own.
+            if !is_raw {
+                planned.spec.raw = None;
+            }
+            Ok(planned)
+        })
         .collect::<Result<Vec<_>>>()?;
     check_names(&planned, folder)?;
     Ok(planned)
