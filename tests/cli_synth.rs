@@ -564,7 +564,8 @@ fn small_foam(extra: &[&str]) -> (i32, String, String) {
 }
 
 /// An output name whose extension says another format is refused before anything is built
-/// (a TIFF named .txt would be skipped by `batch`), for synth and for report.
+/// (a TIFF named .txt would be skipped by `batch`, a JSON named .tif taken for a stack), for
+/// synth, report, estimate and describe.
 #[test]
 fn output_names_must_match_what_is_written() {
     let dir = tempfile::tempdir().unwrap();
@@ -583,6 +584,23 @@ fn output_names_must_match_what_is_written() {
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("this writes HTML, not .md"), "{stderr}");
     assert!(!md.exists());
+    // A JSON file named like a stack would be taken for a sample by a folder batch.
+    let good = dir.path().join("foam.tif");
+    let stack = dir.path().join("geometry.tif");
+    let (code, _, stderr) = small_foam(&[
+        "--out",
+        good.to_str().unwrap(),
+        "--json",
+        stack.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("this writes JSON, not .tif"), "{stderr}");
+    assert!(!good.exists() && !stack.exists());
+    for cmd in ["estimate", "describe"] {
+        let (code, _, stderr) = run(&[cmd, "x.tif", "--json", stack.to_str().unwrap()]);
+        assert_eq!(code, 2, "{cmd}: {stderr}");
+        assert!(stderr.contains("this writes JSON, not .tif"), "{stderr}");
+    }
 }
 
 /// synth writes only regular files (a TIFF is written with seeks and re-read for its hash),

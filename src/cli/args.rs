@@ -364,6 +364,24 @@ pub fn print_out(text: &str) -> Result<()> {
         .map_err(|e| voxperm::volume::output_error(Path::new("standard output"), e))
 }
 
+/// Refuses a `--json` file name that says another format (`--json scan.tif`, `--json flow.vti`):
+/// a later folder batch or viewer would take it for what its name says.
+pub fn check_json_name(path: &Path) -> Result<()> {
+    if voxperm::volume::is_standard_output(path) || voxperm::volume::is_stream(path) {
+        return Ok(());
+    }
+    check_extension(
+        path,
+        "--json",
+        "JSON",
+        &[
+            "tif", "tiff", "raw", "vti", "vtk", "html", "htm", "md", "markdown", "csv", "svg",
+            "toml", "txt",
+        ],
+        "a .json name",
+    )
+}
+
 /// Refuses an output name whose extension says another format than the one written (`wrong`
 /// lists such extensions, lower case), naming the extension to use: a TIFF called .txt or an
 /// HTML page called .md is skipped or misread later.

@@ -108,6 +108,7 @@ pub fn run_cmd(a: BenchArgs) -> Result<i32> {
     cfg.max_bytes = available / 10 * 9;
     if let Some(p) = &a.json {
         check_output_path(p, "--json")?;
+        super::args::check_json_name(p)?;
     }
     let quiet = a.quiet;
     let report = run(&cfg, &mut |msg| {

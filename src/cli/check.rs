@@ -39,6 +39,7 @@ pub fn run(a: CheckArgs) -> Result<i32> {
     super::args::check_threads(a.threads)?;
     if let Some(p) = &a.json {
         check_output_path(p, "--json")?;
+        super::args::check_json_name(p)?;
     }
     let threads = super::args::thread_count(a.threads);
     let pool = rayon::ThreadPoolBuilder::new()

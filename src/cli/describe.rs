@@ -44,6 +44,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     let mode = a.boundary.mode(BoundaryMode::SCAN)?;
     if let Some(p) = &a.json {
         check_json_output(p, "--json")?;
+        super::args::check_json_name(p)?;
         super::args::check_not_input(p, &a.sample, "--json")?;
     }
     let spec = SampleSpec {

@@ -60,6 +60,7 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     };
     if let Some(p) = &a.json {
         check_json_output(p, "--json")?;
+        super::args::check_json_name(p)?;
         check_not_input(p, &a.sample, "--json")?;
     }
     if let (Some(j), Some(v)) = (&a.json, &a.vtk) {

@@ -649,6 +649,7 @@ pub fn run(a: SynthArgs) -> Result<i32> {
     }
     if let Some(j) = &out.json {
         check_output_path(j, "--json")?;
+        super::args::check_json_name(j)?;
         check_distinct_outputs(&[(&out.out, "--out"), (j, "--json")])?;
     }
     let plan = OutputPlan {
