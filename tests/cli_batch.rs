@@ -463,6 +463,14 @@ fn report_is_self_contained_with_table_plots_methods_and_cautions() {
     sample_folder(dir.path());
     let (code, _, stderr) = batch(dir.path(), "scans", "res", &[]);
     assert_eq!(code, 5, "{stderr}");
+    // A result left from an earlier batch into the folder, of a sample no longer in it.
+    let mut stale = json(&dir.path().join("res/a-cell.json"));
+    stale["name"] = "zz-stale-sample".into();
+    std::fs::write(
+        dir.path().join("res/zz-stale-sample.json"),
+        stale.to_string(),
+    )
+    .unwrap();
     let (code, _, stderr) = run_in(
         dir.path(),
         &[
@@ -475,7 +483,12 @@ fn report_is_self_contained_with_table_plots_methods_and_cautions() {
         ],
     );
     assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stderr.contains("skipped the result 'zz-stale-sample'"),
+        "{stderr}"
+    );
     let html = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
+    assert!(!html.contains("zz-stale-sample"));
     for needle in [
         "<table",
         "Comparison of samples",

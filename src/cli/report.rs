@@ -204,6 +204,20 @@ fn from_folder(folder: &Path) -> Result<Collected> {
         return Ok((entries, Vec::new()));
     }
     let rows = read_summary_json(&summary)?;
+    // A result the summary does not list is left from an earlier batch into this folder (a
+    // sample since removed or renamed): not part of this batch's report.
+    entries.retain(|e| {
+        let listed = rows.iter().any(|r| r.name == e.name);
+        if !listed {
+            super::args::note(format_args!(
+                "voxperm: warning: skipped the result '{}' in {}: {} does not list it (left from an earlier batch?)",
+                e.name,
+                folder.display(),
+                summary.display()
+            ));
+        }
+        listed
+    });
     let order = |name: &str| {
         rows.iter()
             .position(|r| r.name == name)
