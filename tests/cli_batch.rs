@@ -335,7 +335,17 @@ axis = "all"
 fn manifest_mistakes_stop_the_batch_before_any_solve() {
     let dir = tempfile::tempdir().unwrap();
     write_mask(dir.path(), "a.tif", &sphere_cell(12, 4.0));
-    let cases: [(&str, i32, &[&str]); 4] = [
+    let cases: [(&str, i32, &[&str]); 6] = [
+        (
+            "[[sample]]\npath = \"a.tif\"\npore_label = -1\n",
+            2,
+            &["sample 1", "pore_label must be a whole number", "not -1"],
+        ),
+        (
+            "[[sample]]\npath = \"a.tif\"\npore_label = [0, \"3\"]\n",
+            2,
+            &["pore_label must be a whole number", "or a list of them"],
+        ),
         (
             "[[sample]]\npath = \"a.tif\"\n[[sample]]\npath = \"a.tif\"\nname = \"beta\"\ncolour = \"red\"\n",
             2,

@@ -55,10 +55,32 @@ struct Layered {
 
 /// `pore_label = 0` or `pore_label = [0, 3]`.
 #[derive(Debug, Clone, Deserialize)]
-#[serde(untagged)]
+#[serde(try_from = "toml::Value")]
 enum Labels {
     One(u32),
     Many(Vec<u32>),
+}
+
+impl TryFrom<toml::Value> for Labels {
+    type Error = String;
+
+    fn try_from(v: toml::Value) -> std::result::Result<Labels, String> {
+        let bad = || {
+            format!(
+                "pore_label must be a whole number from 0 to {} or a list of them (e.g. 0 or [0, 3]), not {v}",
+                u32::MAX
+            )
+        };
+        let one = |x: &toml::Value| x.as_integer().and_then(|i| u32::try_from(i).ok());
+        match &v {
+            toml::Value::Array(items) if !items.is_empty() => items
+                .iter()
+                .map(|x| one(x).ok_or_else(bad))
+                .collect::<std::result::Result<Vec<_>, _>>()
+                .map(Labels::Many),
+            other => one(other).map(Labels::One).ok_or_else(bad),
+        }
+    }
 }
 
 /// The keys of a `[[sample]]` or `[defaults]` table.
