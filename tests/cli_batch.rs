@@ -433,6 +433,26 @@ fn folder_batch_with_raw_shape_keeps_the_tiff_stacks() {
     assert_eq!(block["input"]["shape"].to_string(), "[12,10,10]");
 }
 
+/// Two stacks of one name in a folder batch: refused before any solve, with advice that fits
+/// a folder (no manifest to set a name in).
+#[test]
+fn folder_batch_names_the_clashing_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let s = dir.path().join("scans");
+    std::fs::create_dir(&s).unwrap();
+    write_mask(&s, "a.tif", &sphere_cell(10, 3.0));
+    write_mask(&s, "a.tiff", &sphere_cell(10, 3.0));
+    let (code, _, stderr) = batch(dir.path(), "scans", "res", &[]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(
+        stderr.contains("two samples are named 'a'")
+            && stderr.contains("rename scans/a.tiff")
+            && stderr.contains("manifest"),
+        "{stderr}"
+    );
+    assert!(!dir.path().join("res").exists());
+}
+
 /// A log reader that quit (`batch … 2>&1 | head -1`) must not stop the batch or make it panic:
 /// with standard error a broken pipe from the start, every sample still runs and the summary
 /// agrees with the result files.

@@ -280,7 +280,7 @@ pub fn from_manifest(
         entry.apply(&mut st).map_err(|e| who(&e, &name))?;
         planned.push(st.plan(name.clone(), path).map_err(|e| who(&e, &name))?);
     }
-    check_names(&planned, manifest)?;
+    check_names(&planned, manifest, true)?;
     Ok(planned)
 }
 
@@ -346,7 +346,7 @@ pub fn from_folder(
             Ok(planned)
         })
         .collect::<Result<Vec<_>>>()?;
-    check_names(&planned, folder)?;
+    check_names(&planned, folder, false)?;
     Ok(planned)
 }
 
@@ -361,7 +361,7 @@ fn default_name(path: &Path) -> String {
 }
 
 /// Names become file names in the results folder: plain, unique, not the summary's.
-fn check_names(planned: &[Planned], source: &Path) -> Result<()> {
+fn check_names(planned: &[Planned], source: &Path, manifest: bool) -> Result<()> {
     let mut seen = HashSet::new();
     for p in planned {
         let n = &p.name;
@@ -369,15 +369,24 @@ fn check_names(planned: &[Planned], source: &Path) -> Result<()> {
             && !n.starts_with('.')
             && !n.contains(['/', '\\', ':'])
             && n.chars().all(|c| !c.is_control());
+        // In a folder the names come from the file names; a manifest can set its own.
+        let fix = if manifest {
+            format!("set name = \"...\" for {}", p.spec.path.display())
+        } else {
+            format!(
+                "rename {}, or list the samples in a manifest with name = \"...\"",
+                p.spec.path.display()
+            )
+        };
         if !plain || n == "summary" {
             return Err(Error::Usage(format!(
-                "{}: sample name '{n}' cannot be a result file name (no '/', '\\', ':', leading '.' or 'summary'); set name = \"...\"",
+                "{}: sample name '{n}' cannot be a result file name (no '/', '\\', ':', leading '.' or 'summary'); {fix}",
                 source.display()
             )));
         }
         if !seen.insert(n.as_str()) {
             return Err(Error::Usage(format!(
-                "{}: two samples are named '{n}'; give one a different name",
+                "{}: two samples are named '{n}'; {fix}",
                 source.display()
             )));
         }
