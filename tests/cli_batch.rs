@@ -385,6 +385,20 @@ fn manifest_mistakes_stop_the_batch_before_any_solve() {
         "{stderr}"
     );
     assert!(!dir.path().join("out").exists());
+    // The results folder is created, but not a missing folder around it (a typo there would
+    // quietly start a fresh batch).
+    std::fs::write(
+        dir.path().join("plan.toml"),
+        "[[sample]]\npath = \"a.tif\"\n",
+    )
+    .unwrap();
+    let (got, _, stderr) = batch(dir.path(), "plan.toml", "typo/out", &[]);
+    assert_eq!(got, 3, "{stderr}");
+    assert!(
+        stderr.contains("the folder typo does not exist"),
+        "{stderr}"
+    );
+    assert!(!dir.path().join("typo").exists());
     // A report over a folder without result files names the folder.
     std::fs::create_dir(dir.path().join("empty")).unwrap();
     let (got, _, stderr) = run_in(dir.path(), &["report", "empty", "--out", "r.html"]);

@@ -123,15 +123,32 @@ fn run_config(
     }
 }
 
-/// The results folder must exist (it is created) and be a folder.
+/// The results folder is created if it does not exist, inside a folder that does: a mistyped
+/// parent would otherwise quietly start a fresh batch that reruns every sample.
 fn prepare_out(out: &Path) -> Result<()> {
-    if out.exists() && !out.is_dir() {
+    if out.is_dir() {
+        return Ok(());
+    }
+    if out.exists() {
         return Err(Error::Output {
             path: out.to_path_buf(),
             msg: "--out: is a file, expected a folder".into(),
         });
     }
-    std::fs::create_dir_all(out).map_err(|e| voxperm::volume::output_error(out, e))
+    let parent = out
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    if !parent.is_dir() {
+        return Err(Error::Output {
+            path: out.to_path_buf(),
+            msg: format!(
+                "--out: the folder {} does not exist (the results folder itself is created)",
+                parent.display()
+            ),
+        });
+    }
+    std::fs::create_dir(out).map_err(|e| voxperm::volume::output_error(out, e))
 }
 
 /// Skips an unchanged sample or runs it and writes its result file.
