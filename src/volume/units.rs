@@ -54,6 +54,13 @@ pub fn parse_length(s: &str) -> Result<f64> {
         )));
     }
     let Some(scale) = unit_to_metres(unit) else {
+        // "2,5um": a decimal comma, which the number stops at.
+        if unit.starts_with(',') && unit[1..].starts_with(|c: char| c.is_ascii_digit()) {
+            return Err(Error::Usage(format!(
+                "'{s}': write the decimal separator as a point, e.g. {}",
+                text.replacen(',', ".", 1)
+            )));
+        }
         return Err(Error::Usage(format!(
             "'{s}': '{unit}' is not a length unit; accepted units: {ACCEPTED_UNITS}"
         )));
@@ -163,6 +170,14 @@ mod tests {
             panic!()
         };
         assert!(msg.contains("0.005um if that is micrometres"), "{msg}");
+        // A decimal comma is named as such, with the spelling that works.
+        let Err(Error::Usage(msg)) = parse_length("2,5um") else {
+            panic!()
+        };
+        assert!(
+            msg.contains("decimal separator") && msg.contains("2.5um"),
+            "{msg}"
+        );
     }
 
     #[test]
