@@ -591,7 +591,8 @@ fn json_dash_keeps_the_warnings_on_standard_error() {
     }
 }
 
-/// describe reports an all-pore volume's geometry and says that estimate will refuse it.
+/// describe reports an all-pore (or pore-free) volume's geometry and says that estimate will
+/// refuse it.
 #[test]
 fn describe_flags_an_all_pore_volume() {
     let dir = tempfile::tempdir().unwrap();
@@ -604,6 +605,27 @@ fn describe_flags_an_all_pore_volume() {
         "{stdout}"
     );
     let (code, _, stderr) = run(&["estimate", raw.to_str().unwrap(), "--raw-shape", "8x8x8"]);
+    assert_eq!(code, 3, "{stderr}");
+    // And a threshold that leaves no pore at all.
+    let none = [
+        "describe",
+        raw.to_str().unwrap(),
+        "--raw-shape",
+        "8x8x8",
+        "--threshold",
+        "5",
+        "--pore",
+        "above",
+    ];
+    let (code, stdout, stderr) = run(&none);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(
+        stdout.contains("no voxel is pore: estimate refuses it"),
+        "{stdout}"
+    );
+    let mut estimate = none;
+    estimate[0] = "estimate";
+    let (code, _, stderr) = run(&estimate);
     assert_eq!(code, 3, "{stderr}");
 }
 

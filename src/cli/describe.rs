@@ -101,6 +101,11 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
             out,
             "            every voxel is pore: estimate refuses it (no solid phase, most likely a segmentation slip); check --pore-label or --threshold"
         );
+    } else if g.pore_voxels == 0 {
+        let _ = writeln!(
+            out,
+            "            no voxel is pore: estimate refuses it (all solid); check --pore-label, --threshold and --pore"
+        );
     }
     let mut axes_json = Vec::new();
     for ap in &g.axes {
