@@ -141,8 +141,8 @@ fn check_labels_present(data: &VoxelData, labels: &[u32], crop: Option<&Crop>) -
     let Some(&missing) = labels.iter().find(|&&l| !occurs(l)) else {
         return Ok(());
     };
-    let (listing, all_integer) = match &seen {
-        Some(seen) => (list_seen(seen), true),
+    let (listing, all_integer, wild) = match &seen {
+        Some(seen) => (list_seen(seen), true, false),
         None => list_floats(data),
     };
     let uniform = seen
@@ -152,7 +152,9 @@ fn check_labels_present(data: &VoxelData, labels: &[u32], crop: Option<&Crop>) -
         Some(c) => (format!("the crop {c}"), "the crop is"),
         None => ("the volume".to_string(), "the image is"),
     };
-    let hint = if uniform {
+    let hint = if wild {
+        "; such values suggest the data are not 32-bit floats: for a raw file check --raw-type and --raw-endian".to_string()
+    } else if uniform {
         format!("; that one value only, so {whole} all solid for this label (or not segmented)")
     } else if all_integer {
         String::new()
@@ -192,15 +194,20 @@ fn list_seen(seen: &[bool]) -> String {
 }
 
 /// The smallest distinct non-NaN values of a float image, and whether all values are whole.
-fn list_floats(data: &VoxelData) -> (String, bool) {
+/// The smallest values of a float volume as a listing, whether all are whole numbers, and
+/// whether some are wild (infinite, beyond ±1e30 or tinier than 1e-30 but not zero): what
+/// bytes of another type read as f32 look like.
+fn list_floats(data: &VoxelData) -> (String, bool, bool) {
     let VoxelData::F32(v) = data else {
-        return (String::new(), true);
+        return (String::new(), true, false);
     };
     // Keep the smallest LIST_MAX + 1 distinct values: one extra tells that there are more.
     let mut first: Vec<f32> = Vec::new();
     let mut all_integer = true;
+    let mut wild = false;
     for &x in v.iter().filter(|x| !x.is_nan()) {
         all_integer &= x.fract() == 0.0;
+        wild |= x.abs() > 1e30 || (x != 0.0 && x.abs() < 1e-30);
         if let Err(i) = first.binary_search_by(|p| p.total_cmp(&x))
             && i <= LIST_MAX
         {
@@ -209,13 +216,20 @@ fn list_floats(data: &VoxelData) -> (String, bool) {
         }
     }
     if first.is_empty() {
-        return ("none (every voxel is NaN)".into(), all_integer);
+        return ("none (every voxel is NaN)".into(), all_integer, true);
     }
-    let mut s = join(first.iter().take(LIST_MAX));
+    let short = |x: &f32| {
+        if x.abs() >= 1e7 || (*x != 0.0 && x.abs() < 1e-4) {
+            format!("{x:e}")
+        } else {
+            x.to_string()
+        }
+    };
+    let mut s = join(first.iter().take(LIST_MAX).map(short));
     if first.len() > LIST_MAX {
         s.push_str(" …");
     }
-    (s, all_integer)
+    (s, all_integer, wild)
 }
 
 fn join<T: fmt::Display>(items: impl Iterator<Item = T>) -> String {
@@ -301,6 +315,16 @@ mod tests {
         assert!(msg.contains("label 99"), "{msg}");
         assert!(msg.contains("0, 0.5, 1, 1.5"), "{msg}");
         assert!(msg.contains("threshold"), "{msg}");
+        // Bytes of another type read as f32: compact numbers and a hint at the raw layout.
+        let v = vol(VoxelData::F32(vec![
+            f32::from_le_bytes([0, 1, 255, 254]),
+            f32::from_le_bytes([1, 0, 0, 0]),
+        ]));
+        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::Labels(vec![0]), None) else {
+            panic!()
+        };
+        assert!(msg.contains("e38") && msg.contains("e-45"), "{msg}");
+        assert!(msg.contains("--raw-type and --raw-endian"), "{msg}");
     }
 
     #[test]
