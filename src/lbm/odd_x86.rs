@@ -192,21 +192,13 @@ unsafe fn interior_block(
 unsafe fn scatter_block(base: *mut f32, n: usize, k: usize, m: &[__m256i; Q], d: &[Lanes; Q]) {
     unsafe {
         let solid = _mm256_set1_epi32(SOLID as i32);
-        let lanes = _mm256_add_epi32(
-            _mm256_set1_epi32(k as i32),
-            _mm256_setr_epi32(0, 1, 2, 3, 4, 5, 6, 7),
-        );
         macro_rules! write {
             ($i:literal) => {{
                 let o = opposite($i);
                 let v = _mm256_loadu_ps(d[$i].as_ptr());
                 let keep = _mm256_cmpneq_epi32_mask(m[$i], solid);
-                let to = _mm256_mask_blend_epi32(
-                    keep,
-                    _mm256_add_epi32(lanes, _mm256_set1_epi32((o * n) as i32)),
-                    _mm256_add_epi32(m[$i], _mm256_set1_epi32(($i * n) as i32)),
-                );
-                _mm256_i32scatter_ps(base, to, v, 4);
+                _mm256_mask_i32scatter_ps(base.add($i * n), keep, m[$i], v, 4);
+                _mm256_mask_storeu_ps(base.add(o * n + k), !keep, v);
             }};
         }
         each_direction!(write);
