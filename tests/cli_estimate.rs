@@ -300,10 +300,19 @@ fn bad_inputs_fail_with_one_clear_line_and_no_output() {
         &["s2.tif"],
         &json,
     );
-    // The result file must not overwrite the input sample.
+    // The result file must not overwrite the input sample: refused by its .tif name, and
+    // under a name that passes that rule, as the input itself.
     let (code, _, stderr) = run(&["estimate", g, "--json", g]);
     assert_eq!(code, 2, "{stderr}");
-    assert!(stderr.contains("input sample itself"), "{stderr}");
+    assert!(stderr.contains("this writes JSON, not .tif"), "{stderr}");
+    #[cfg(unix)]
+    {
+        let alias = d.join("alias.dat");
+        std::os::unix::fs::symlink(&good, &alias).unwrap();
+        let (code, _, stderr) = run(&["estimate", g, "--json", alias.to_str().unwrap()]);
+        assert_eq!(code, 2, "{stderr}");
+        assert!(stderr.contains("input sample itself"), "{stderr}");
+    }
     assert!(
         std::fs::read(&good).unwrap().starts_with(b"II")
             || std::fs::read(&good).unwrap().starts_with(b"MM")
@@ -661,14 +670,18 @@ fn outputs_keep_redirected_logs_and_distinct_files() {
     let v: serde_json::Value = serde_json::from_str(&text["PREVIOUS LINE\n".len()..]).unwrap();
     assert!(v["permeability_lattice"].as_f64().unwrap() > 0.0);
 
-    let same = dir.path().join("same.vti");
+    // One file under two names: a link named .vti to the JSON file.
+    let same = dir.path().join("same.json");
+    std::fs::write(&same, "{}").unwrap();
+    let link = dir.path().join("same.vti");
+    std::os::unix::fs::symlink(&same, &link).unwrap();
     let (code, _, stderr) = run(&[
         "estimate",
         sample.to_str().unwrap(),
         "--json",
         same.to_str().unwrap(),
         "--vtk",
-        same.to_str().unwrap(),
+        link.to_str().unwrap(),
     ]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("name the same file"), "{stderr}");
@@ -685,7 +698,7 @@ fn outputs_keep_redirected_logs_and_distinct_files() {
     ]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("name the same file"), "{stderr}");
-    let twin = dir.path().join("twin.tif");
+    let twin = dir.path().join("twin.dat");
     std::fs::hard_link(&sample, &twin).unwrap();
     let (code, _, stderr) = run(&[
         "estimate",

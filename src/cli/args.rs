@@ -409,6 +409,18 @@ pub fn check_extension(
 mod tests {
     use super::*;
 
+    /// One file spelled two ways (`g.tif`, `./g.tif`) is one output.
+    #[test]
+    fn outputs_spelled_differently_are_one_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let a = dir.path().join("g.tif");
+        let b = dir.path().join(".").join("g.tif");
+        let err = check_distinct_outputs(&[(&a, "--out"), (&b, "--json")]).unwrap_err();
+        assert!(err.to_string().contains("name the same file"), "{err}");
+        let c = dir.path().join("h.json");
+        assert!(check_distinct_outputs(&[(&a, "--out"), (&c, "--json")]).is_ok());
+    }
+
     #[test]
     fn parses_memory_sizes() {
         assert_eq!(parse_bytes("8GiB").unwrap(), 8 * 1024 * 1024 * 1024);
