@@ -639,8 +639,9 @@ fn describe_flags_an_all_pore_volume() {
 }
 
 /// `--json /dev/stdout` with standard output redirected to a log appends to the log through
-/// the open descriptor; it does not replace the log file. Two outputs naming one file, and
-/// standard output for anything but the JSON, are refused before any work.
+/// the open descriptor; it does not replace the log file. Two outputs naming one file, an
+/// output on standard error, and standard output for anything but the JSON, are refused before
+/// any work.
 #[cfg(target_os = "linux")]
 #[test]
 fn outputs_keep_redirected_logs_and_distinct_files() {
@@ -669,6 +670,22 @@ fn outputs_keep_redirected_logs_and_distinct_files() {
     // The JSON alone follows: no summary mixed in.
     let v: serde_json::Value = serde_json::from_str(&text["PREVIOUS LINE\n".len()..]).unwrap();
     assert!(v["permeability_lattice"].as_f64().unwrap() > 0.0);
+
+    // An output on the file standard error goes to would mix with the messages: refused, and
+    // the log keeps only the error line.
+    let errlog = dir.path().join("err.json");
+    let out = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
+        .args(["estimate", sample.to_str().unwrap(), "--periodic", "--json"])
+        .arg(&errlog)
+        .stderr(std::fs::File::create(&errlog).unwrap())
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(3));
+    let text = std::fs::read_to_string(&errlog).unwrap();
+    assert!(
+        text.contains("where standard error goes") && !text.contains('{'),
+        "{text}"
+    );
 
     // One file under two names: a link named .vti to the JSON file.
     let same = dir.path().join("same.json");

@@ -367,7 +367,7 @@ pub fn print_out(text: &str) -> Result<()> {
 /// Refuses a `--json` file name that says another format (`--json scan.tif`, `--json flow.vti`):
 /// a later folder batch or viewer would take it for what its name says.
 pub fn check_json_name(path: &Path) -> Result<()> {
-    if voxperm::volume::is_standard_output(path) || voxperm::volume::is_stream(path) {
+    if voxperm::volume::is_standard_output(path) || voxperm::volume::is_pipe_or_device(path) {
         return Ok(());
     }
     check_extension(

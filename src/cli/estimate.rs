@@ -110,7 +110,7 @@ fn vtk_request(a: &EstimateArgs) -> Result<Option<VtkRequest>> {
         .extension()
         .and_then(|e| e.to_str())
         .is_some_and(|e| e.eq_ignore_ascii_case("vti"));
-    if !vti && !voxperm::volume::is_stream(p) {
+    if !vti && !voxperm::volume::is_pipe_or_device(p) {
         return Err(Error::Usage(format!(
             "--vtk {}: the file name must end in .vti (VTK XML image data)",
             p.display()

@@ -356,7 +356,7 @@ fn check_destination(path: &Path) -> Result<()> {
         .extension()
         .and_then(|e| e.to_str())
         .is_some_and(|e| e.eq_ignore_ascii_case("vti"));
-    if !is_vti && !crate::volume::is_stream(path) {
+    if !is_vti && !crate::volume::is_pipe_or_device(path) {
         return Err(Error::Output {
             path: path.to_path_buf(),
             msg: "a VTK image-data file needs the .vti extension".into(),

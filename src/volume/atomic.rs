@@ -117,11 +117,19 @@ pub fn write_atomically(
     Ok(())
 }
 
-/// Checks that `path` could be written: its folder exists, and it is not a folder or a link
-/// that cannot be followed. Commands call this before long work so a bad output path fails at
-/// once.
+/// Checks that `path` could be written: its folder exists, and it is not a folder, a link
+/// that cannot be followed, or standard error (which carries the messages, `--vtk run.log
+/// 2>run.log`). Commands call this before long work so a bad output path fails at once.
 pub fn check_destination(path: &Path) -> Result<()> {
-    if let Destination::Replace { folder, .. } = destination(path)? {
+    let target = destination(path)?;
+    if let Destination::Descriptor(Fd::Err) = target {
+        return Err(Error::Output {
+            path: path.to_path_buf(),
+            msg: "is where standard error goes, which carries the messages; give another file"
+                .into(),
+        });
+    }
+    if let Destination::Replace { folder, .. } = target {
         // The rename needs a temporary file in the folder: try one now, so a read-only folder
         // fails before hours of work rather than after.
         let (probe, _file) =
@@ -148,6 +156,12 @@ pub fn is_stream(path: &Path) -> bool {
         destination(path),
         Ok(Destination::Stream | Destination::Descriptor(_))
     )
+}
+
+/// True when `path` is a pipe or a device (`/dev/null`, a FIFO): written straight through, with
+/// no file name for a reader to go by.
+pub fn is_pipe_or_device(path: &Path) -> bool {
+    matches!(destination(path), Ok(Destination::Stream))
 }
 
 /// True when `path` writes to this process's standard output (`-`, `/dev/stdout`, or the

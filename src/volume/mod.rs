@@ -23,8 +23,8 @@ use std::path::{Path, PathBuf};
 
 pub(crate) use atomic::one_line;
 pub use atomic::{
-    check_destination, is_standard_output, is_stream, output_error, remove_pending_temporaries,
-    resolved_destination, same_existing_file, write_atomically,
+    check_destination, is_pipe_or_device, is_standard_output, is_stream, output_error,
+    remove_pending_temporaries, resolved_destination, same_existing_file, write_atomically,
 };
 pub use crop::{Crop, CropSpec, crop};
 pub use limits::{ReadLimits, available_memory_bytes, bytes_for};
