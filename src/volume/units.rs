@@ -54,11 +54,33 @@ pub fn parse_length(s: &str) -> Result<f64> {
         )));
     }
     let Some(scale) = unit_to_metres(unit) else {
-        // "2,5um": a decimal comma, which the number stops at.
-        if unit.starts_with(',') && unit[1..].starts_with(|c: char| c.is_ascii_digit()) {
+        // "2,5um" or "1,000nm": a comma, which the number stops at. Decimal or thousands?
+        if let Some(rest) = unit.strip_prefix(',')
+            && rest.starts_with(|c: char| c.is_ascii_digit())
+        {
+            let digits = rest.chars().take_while(char::is_ascii_digit).count();
+            // With no unit after the digits, suggest the usual micro-CT one.
+            let unit_hint = if rest[digits..].trim().is_empty() {
+                "um"
+            } else {
+                ""
+            };
+            let point = format!("{}{unit_hint}", text.replacen(',', ".", 1));
+            let hint = if digits == 3 {
+                let joined = format!("{}{unit_hint}", text.replacen(',', "", 1));
+                format!(
+                    "{point} if the comma is a decimal separator, {joined} if it separates thousands"
+                )
+            } else {
+                format!("{point} (decimal point)")
+            };
+            let hint = if unit_hint.is_empty() {
+                hint
+            } else {
+                format!("{hint}, with the unit you mean (um = micrometres)")
+            };
             return Err(Error::Usage(format!(
-                "'{s}': write the decimal separator as a point, e.g. {}",
-                text.replacen(',', ".", 1)
+                "'{s}': numbers take no comma; write {hint}"
             )));
         }
         return Err(Error::Usage(format!(
@@ -170,14 +192,24 @@ mod tests {
             panic!()
         };
         assert!(msg.contains("0.005um if that is micrometres"), "{msg}");
-        // A decimal comma is named as such, with the spelling that works.
+        // A comma is named as such, with the spelling that works.
         let Err(Error::Usage(msg)) = parse_length("2,5um") else {
             panic!()
         };
+        assert!(msg.contains("2.5um (decimal point)"), "{msg}");
+        // Three digits after it may be thousands: both readings are named.
+        let Err(Error::Usage(msg)) = parse_length("1,000nm") else {
+            panic!()
+        };
         assert!(
-            msg.contains("decimal separator") && msg.contains("2.5um"),
+            msg.contains("1.000nm if") && msg.contains("1000nm if"),
             "{msg}"
         );
+        // Without a unit the suggestion carries one, so it can be used as given.
+        let Err(Error::Usage(msg)) = parse_length("2,5") else {
+            panic!()
+        };
+        assert!(msg.contains("2.5um"), "{msg}");
     }
 
     #[test]
