@@ -445,6 +445,11 @@ fn folder_batch_with_raw_shape_keeps_the_tiff_stacks() {
     assert_eq!(stack["input"]["shape"].to_string(), "[10,10,10]");
     let block = json(&dir.path().join("res/block.json"));
     assert_eq!(block["input"]["shape"].to_string(), "[12,10,10]");
+    // With no raw file left the option is unused, and the user is told.
+    std::fs::remove_file(s.join("block.raw")).unwrap();
+    let (code, _, stderr) = batch(dir.path(), "scans", "res2", &["--raw-shape", "12x10x10"]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stderr.contains("holds no .raw file"), "{stderr}");
 }
 
 /// Two stacks of one name in a folder batch: refused before any solve, with advice that fits

@@ -332,15 +332,22 @@ pub fn from_folder(
         };
         return Err(Error::bad_input(folder, format!("{what} to run")));
     }
+    let is_raw =
+        |p: &Path| p.is_file() && p.extension().is_some_and(|e| e.eq_ignore_ascii_case("raw"));
+    if raw && !paths.iter().any(|p| is_raw(p)) {
+        super::args::note(format_args!(
+            "voxperm: warning: {}: --raw-shape is given but the folder holds no .raw file, so it is not used (raw files must end in .raw)",
+            folder.display()
+        ));
+    }
     let layer = Layered::from_cli(input, axis, boundary)?;
     let planned = paths
         .into_iter()
         .map(|p| {
-            let is_raw =
-                p.is_file() && p.extension().is_some_and(|e| e.eq_ignore_ascii_case("raw"));
+            let raw_file = is_raw(&p);
             let mut planned = layer.plan(default_name(&p), p)?;
             // The raw layout describes the .raw files; stacks and slice folders carry their own.
-            if !is_raw {
+            if !raw_file {
                 planned.spec.raw = None;
             }
             Ok(planned)
