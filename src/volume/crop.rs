@@ -112,15 +112,6 @@ impl Crop {
             .zip(shape)
             .all(|(r, n)| r.start < r.end && r.end <= n)
     }
-
-    /// e.g. "x 0:100, y 10:50, z 0:300".
-    pub fn describe(&self) -> String {
-        let [x, y, z] = &self.ranges;
-        format!(
-            "x {}:{}, y {}:{}, z {}:{}",
-            x.start, x.end, y.start, y.end, z.start, z.end
-        )
-    }
 }
 
 /// The part of `vol` inside `c`; the voxel size is kept.
@@ -130,8 +121,7 @@ impl Crop {
 pub fn crop(vol: &Volume, c: &Crop) -> Volume {
     assert!(
         c.fits(vol.shape),
-        "crop {} does not fit volume shape {:?}",
-        c.describe(),
+        "crop {c} does not fit volume shape {:?}",
         vol.shape
     );
     let data = match &vol.data {

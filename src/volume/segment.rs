@@ -193,10 +193,9 @@ fn list_seen(seen: &[bool]) -> String {
     s
 }
 
-/// The smallest distinct non-NaN values of a float image, and whether all values are whole.
-/// The smallest values of a float volume as a listing, whether all are whole numbers, and
-/// whether some are wild (infinite, beyond ±1e30 or tinier than 1e-30 but not zero): what
-/// bytes of another type read as f32 look like.
+/// The smallest distinct non-NaN values of a float volume as a listing, whether all are whole
+/// numbers, and whether some are wild (infinite, beyond ±1e30 or tinier than 1e-30 but not
+/// zero): what bytes of another type read as f32 look like.
 fn list_floats(data: &VoxelData) -> (String, bool, bool) {
     let VoxelData::F32(v) = data else {
         return (String::new(), true, false);
