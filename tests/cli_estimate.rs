@@ -552,7 +552,8 @@ fn a_closed_standard_output_is_an_error_not_a_panic() {
     );
 }
 
-/// `--json -` puts the result on standard output, where a script can read it.
+/// `--json -` puts the result on standard output, where a script can read it, and the
+/// warnings on standard error.
 #[test]
 fn json_dash_goes_to_standard_output() {
     let dir = tempfile::tempdir().unwrap();
@@ -573,14 +574,7 @@ fn json_dash_goes_to_standard_output() {
     );
     assert!(!dir.path().join("-").exists());
     assert!(!std::path::Path::new("-").exists());
-}
-
-/// With the JSON on standard output the summary is left out, but its warnings still reach the
-/// user, on standard error.
-#[test]
-fn json_dash_keeps_the_warnings_on_standard_error() {
-    let dir = tempfile::tempdir().unwrap();
-    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    // The summary is left out then, but its warnings still reach the user, on standard error.
     let (code, stdout, stderr) = run(&[
         "estimate",
         sample.to_str().unwrap(),
