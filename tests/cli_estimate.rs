@@ -435,6 +435,19 @@ fn describe_reports_geometry_without_solving() {
     assert!(stdout.contains("no percolating path"), "{stdout}");
     assert!(stdout.contains("Kozeny"), "{stdout}");
     assert!(stdout.contains("GiB"), "{stdout}");
+    // -q with --json: the file only, nothing on stdout.
+    let j = dir.path().join("geometry.json");
+    let (code, stdout, stderr) = run(&[
+        "describe",
+        sample.to_str().unwrap(),
+        "-q",
+        "--json",
+        j.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stdout.is_empty(), "{stdout}");
+    let v: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+    assert!(v["axes"].is_array());
 }
 
 /// A sample too short along the flow, and a voxel size far outside imaging practice, give an

@@ -32,6 +32,9 @@ pub struct DescribeArgs {
     /// grid starts).
     #[arg(long)]
     pub cold_start: bool,
+    /// Print nothing but errors and warnings (with --json, for scripts).
+    #[arg(long, short)]
+    pub quiet: bool,
 }
 
 fn gib(b: u64) -> f64 {
@@ -201,10 +204,11 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         })?;
     }
     // JSON on standard output: the text would corrupt it.
-    if !a
-        .json
-        .as_deref()
-        .is_some_and(voxperm::volume::is_standard_output)
+    if !a.quiet
+        && !a
+            .json
+            .as_deref()
+            .is_some_and(voxperm::volume::is_standard_output)
     {
         super::args::print_out(&out)?;
     }
