@@ -316,6 +316,26 @@ fn voxel_size_from_resolution_tags_alone() {
     fs::write(&path, buf.into_inner()).unwrap();
     let size = load(&path, None, &limits()).unwrap().voxel_size.unwrap();
     assert!((size.metres - 2.5e-6).abs() < 1e-18, "{}", size.metres);
+    assert!(size.source.not_cubic(size.metres).is_none());
+    // A y resolution of half the x one: voxels twice as long along y.
+    let mut buf = Cursor::new(Vec::new());
+    let mut enc = TiffEncoder::new(&mut buf).unwrap();
+    let mut img = enc.new_image::<Gray8>(3, 2).unwrap();
+    img.encoder().write_tag(Tag::ResolutionUnit, 3u16).unwrap();
+    img.encoder()
+        .write_tag(Tag::XResolution, Rational { n: 4000, d: 1 })
+        .unwrap();
+    img.encoder()
+        .write_tag(Tag::YResolution, Rational { n: 2000, d: 1 })
+        .unwrap();
+    img.write_data(&[0u8; 6]).unwrap();
+    fs::write(&path, buf.into_inner()).unwrap();
+    let size = load(&path, None, &limits()).unwrap().voxel_size.unwrap();
+    let (how, ratio) = size.source.not_cubic(size.metres).unwrap();
+    assert!(
+        (ratio - 2.0).abs() < 1e-12 && how.contains("y size 5 µm"),
+        "{how}"
+    );
 }
 
 #[test]
@@ -365,6 +385,28 @@ fn voxel_size_from_description_unit_and_spacing() {
     };
     assert!((slice_spacing.unwrap() - 1e-5).abs() < 1e-18);
     assert!(detail.contains("not cubic"), "{detail}");
+    let (how, ratio) = tall.source.not_cubic(tall.metres).unwrap();
+    assert!(
+        (ratio - 2.0).abs() < 1e-12 && how.contains("slice spacing 10 µm"),
+        "{how}"
+    );
+    assert!(cubic.source.not_cubic(cubic.metres).is_none());
+    // Loaded as a sample, the file gives a warning that estimate and describe print.
+    let spec = voxperm::volume::sample::SampleSpec {
+        path: dir.path().join("tall.tif"),
+        raw: None,
+        segmentation: voxperm::volume::Segmentation::Labels(vec![1]),
+        crop: None,
+        voxel_size_m: None,
+    };
+    let sample = voxperm::volume::sample::load_sample(&spec, &limits()).unwrap();
+    let warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &spec.path);
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w.contains("not cubic") && w.contains("ratio 2.000")),
+        "{warnings:?}"
+    );
 }
 
 #[test]

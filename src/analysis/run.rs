@@ -256,6 +256,15 @@ pub fn voxel_size_warnings(sample: &Sample, path: &std::path::Path) -> Vec<Strin
             path.display()
         ));
     }
+    if let Some(v) = &sample.voxel_size
+        && sample.overridden_voxel_size.is_none()
+        && let Some((how, ratio)) = v.source.not_cubic(v.metres)
+    {
+        warnings.push(format!(
+            "{} records voxels that are not cubic ({how}, ratio {ratio:.3}); the solver treats them as cubic with the x size, so k is off by an amount that grows with that ratio: resample the image to cubic voxels (or, if the file's resolution is wrong, give --voxel-size)",
+            path.display()
+        ));
+    }
     if let Some(v) = sample
         .voxel_size
         .as_ref()

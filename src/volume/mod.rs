@@ -103,7 +103,43 @@ pub enum VoxelSizeSource {
         /// The slice spacing (metres) when the file states one that differs from the in-plane
         /// voxel size, i.e. the voxels are not cubic. None when it agrees or is not given.
         slice_spacing: Option<f64>,
+        /// The voxel size along y (metres) when the y resolution differs from the x one. None
+        /// when it agrees or is not given.
+        row_size: Option<f64>,
     },
+}
+
+impl VoxelSizeSource {
+    /// How the voxels are not cubic, when the file says so: e.g. "slice spacing 4 µm against
+    /// 2 µm in plane", with the largest ratio of two edge lengths.
+    pub fn not_cubic(&self, in_plane: f64) -> Option<(String, f64)> {
+        let VoxelSizeSource::File {
+            slice_spacing,
+            row_size,
+            ..
+        } = self
+        else {
+            return None;
+        };
+        let mut parts = Vec::new();
+        let mut ratio = 1.0f64;
+        for (what, v) in [("y size", row_size), ("slice spacing", slice_spacing)] {
+            if let Some(v) = *v {
+                parts.push(format!("{what} {}", crate::volume::format_length(v)));
+                ratio = ratio.max(v / in_plane).max(in_plane / v);
+            }
+        }
+        (!parts.is_empty()).then(|| {
+            (
+                format!(
+                    "{} against x size {}",
+                    parts.join(", "),
+                    crate::volume::format_length(in_plane)
+                ),
+                ratio,
+            )
+        })
+    }
 }
 
 impl VoxelSizeSource {

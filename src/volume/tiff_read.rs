@@ -304,6 +304,7 @@ pub(crate) fn file_voxel_size(dec: &mut TiffDecoder, path: &Path) -> Option<Voxe
     let yres = rational(dec.find_tag(Tag::YResolution).ok().flatten());
 
     let mut notes = Vec::new();
+    let mut row_size = None;
     let in_plane = xres.and_then(|x| {
         let (metres_per_unit, unit_name) = match res_unit {
             Some(3) => (1e-2, "cm".to_string()),
@@ -317,6 +318,7 @@ pub(crate) fn file_voxel_size(dec: &mut TiffDecoder, path: &Path) -> Option<Voxe
             notes.push(format!(
                 "YResolution {y} differs from XResolution {x}; using x"
             ));
+            row_size = Some(metres_per_unit / y).filter(|&v| plausible(v));
         }
         let size = metres_per_unit / x;
         plausible(size).then(|| (size, format!("XResolution {x} pixels/{unit_name}")))
@@ -353,6 +355,7 @@ pub(crate) fn file_voxel_size(dec: &mut TiffDecoder, path: &Path) -> Option<Voxe
             path: path.to_path_buf(),
             detail,
             slice_spacing,
+            row_size,
         },
     })
 }
