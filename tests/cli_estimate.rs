@@ -931,3 +931,32 @@ fn threshold_and_crop_on_a_grey_image() {
 fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
     write_mask_with(dir, name, mask, TiffCompression::Lzw)
 }
+
+/// A BGK run carries a warning that its k depends on τ; the default TRT run does not.
+#[test]
+fn bgk_runs_say_their_permeability_depends_on_tau() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    for (collision, expected) in [("bgk", true), ("trt", false)] {
+        let j = dir.path().join(format!("{collision}.json"));
+        let (code, _, stderr) = run(&[
+            "estimate",
+            sample.to_str().unwrap(),
+            "--periodic",
+            "--collision",
+            collision,
+            "-q",
+            "--json",
+            j.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{stderr}");
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+        let warned = v["warnings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|w| w.as_str().unwrap().contains("depends on τ"));
+        assert_eq!(warned, expected, "{collision}: {}", v["warnings"]);
+    }
+}

@@ -140,6 +140,13 @@ pub fn run_sample(
             sample.mask.shape(),
             cfg.mode,
         ));
+        if cfg.solver.collision == crate::lbm::Collision::Bgk {
+            // Measured in the README's τ table: BGK's k on a sphere array spans 21 % over
+            // τ = 0.6–1.5, TRT's 1.4e-5.
+            warnings.push(
+                "BGK collision: its permeability depends on τ (the apparent wall position moves with the viscosity; 21 % over τ 0.6–1.5 on a sphere array, README); use the default TRT for results".into(),
+            );
+        }
         let mut report = EstimateReport::new(
             &est,
             input_record(spec, &sample)?,
