@@ -960,3 +960,45 @@ fn bgk_runs_say_their_permeability_depends_on_tau() {
         assert_eq!(warned, expected, "{collision}: {}", v["warnings"]);
     }
 }
+
+/// The summary and the result file say how a raw file was read and which crop was analysed,
+/// so a result can be traced to its input (a forgotten --raw-endian inverts a u16 image).
+#[test]
+fn summary_and_json_record_the_raw_layout_and_the_crop() {
+    let dir = tempfile::tempdir().unwrap();
+    let cell = sphere_cell(10, 3.5);
+    let bytes: Vec<u8> = (0..10)
+        .flat_map(|z| (0..10).flat_map(move |y| (0..10).map(move |x| (x, y, z))))
+        .flat_map(|(x, y, z)| u16::from(!cell.is_pore(x, y, z)).to_be_bytes())
+        .collect();
+    let raw = dir.path().join("cell.raw");
+    std::fs::write(&raw, bytes).unwrap();
+    let j = dir.path().join("cell.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        raw.to_str().unwrap(),
+        "--raw-shape",
+        "10x10x10",
+        "--raw-type",
+        "u16",
+        "--raw-endian",
+        "big",
+        "--crop",
+        "2:10,:,:",
+        "--periodic",
+        "--json",
+        j.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stdout.contains("raw layout  10x10x10 u16 big-endian"),
+        "{stdout}"
+    );
+    assert!(
+        stdout.contains("crop        2:10,:,: of the file's 10x10x10 voxels"),
+        "{stdout}"
+    );
+    let v: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+    assert_eq!(v["input"]["raw_layout"], "10x10x10 u16 big-endian");
+    assert_eq!(v["input"]["crop"], "2:10,:,:");
+}

@@ -369,6 +369,14 @@ fn input_record(spec: &SampleSpec, s: &Sample) -> Result<InputRecord> {
         sample_type: s.sample_type.clone(),
         segmentation: spec.segmentation.to_string(),
         crop: spec.crop.as_ref().map(crop_text),
+        raw_layout: spec.raw.as_ref().map(|r| {
+            let [x, y, z] = r.shape;
+            let endian = match r.endian {
+                crate::volume::Endian::Little => "little-endian",
+                crate::volume::Endian::Big => "big-endian",
+            };
+            format!("{x}x{y}x{z} {} {endian}", r.kind)
+        }),
         voxel_size_source: s
             .voxel_size
             .as_ref()

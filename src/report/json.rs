@@ -31,6 +31,8 @@ pub struct InputRecord {
     pub sample_type: String,
     pub segmentation: String,
     pub crop: Option<String>,
+    /// The raw layout the file was read with (`NXxNYxNZ type endian`), for a raw file.
+    pub raw_layout: Option<String>,
     /// Where the voxel size came from, or why there is none.
     pub voxel_size_source: String,
 }

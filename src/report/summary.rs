@@ -35,6 +35,13 @@ pub fn render(r: &EstimateReport) -> String {
         "sample      {}  ({}x{}x{} {}, {})",
         inp.path, inp.shape[0], inp.shape[1], inp.shape[2], inp.sample_type, inp.segmentation
     );
+    if let Some(raw) = &inp.raw_layout {
+        let _ = writeln!(s, "raw layout  {raw}");
+    }
+    if let Some(c) = &inp.crop {
+        let [fx, fy, fz] = inp.file_shape;
+        let _ = writeln!(s, "crop        {c} of the file's {fx}x{fy}x{fz} voxels");
+    }
     match r.voxel_size_m {
         Some(dx) => {
             let _ = writeln!(s, "voxel size  {} m, {}", sci(dx), inp.voxel_size_source);
