@@ -15,7 +15,8 @@ pub struct CropSpec {
 }
 
 impl CropSpec {
-    /// Parses "x0:x1,y0:y1,z0:z1"; each side may omit either end (":", "10:", ":50").
+    /// Parses "x0:x1,y0:y1,z0:z1"; each side may omit either end (":", "10:", ":50") or be
+    /// empty (the full extent, as ":").
     pub fn parse(s: &str) -> Result<CropSpec> {
         let bad = |why: String| {
             Error::Usage(format!(
@@ -29,8 +30,12 @@ impl CropSpec {
         let mut bounds = [(None, None); 3];
         for (axis, (part, slot)) in parts.iter().zip(bounds.iter_mut()).enumerate() {
             let name = ['x', 'y', 'z'][axis];
-            let Some((a, b)) = part.split_once(':') else {
-                return Err(bad(format!("{name} range '{}' has no ':'", part.trim())));
+            // An empty range is the full extent, like ':' ("0:9,," crops x only).
+            let (a, b) = if part.trim().is_empty() {
+                ("", "")
+            } else {
+                part.split_once(':')
+                    .ok_or_else(|| bad(format!("{name} range '{}' has no ':'", part.trim())))?
             };
             let end = |t: &str| -> Result<Option<usize>> {
                 let t = t.trim();
@@ -160,6 +165,9 @@ mod tests {
         let c = Crop::parse(" 5: , :7 ,2:3", [10, 10, 10]).unwrap();
         assert_eq!(c.ranges, [5..10, 0..7, 2..3]);
         assert_eq!(c.shape(), [5, 7, 1]);
+        // An empty range is the full extent, as the help says.
+        let c = Crop::parse("0:9,, ", [10, 12, 14]).unwrap();
+        assert_eq!(c.ranges, [0..9, 0..12, 0..14]);
     }
 
     #[test]
