@@ -693,6 +693,15 @@ fn outputs_keep_redirected_logs_and_distinct_files() {
         text.contains("where standard error goes") && !text.contains('{'),
         "{text}"
     );
+    // A device is a device, even when stdout and stderr are open on it too.
+    let status = std::process::Command::new(assert_cmd::cargo::cargo_bin("voxperm"))
+        .args(["estimate", sample.to_str().unwrap(), "--periodic"])
+        .args(["--json", "/dev/null", "--vtk", "/dev/null"])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .status()
+        .unwrap();
+    assert_eq!(status.code(), Some(0));
 
     // One file under two names: a link named .vti to the JSON file.
     let same = dir.path().join("same.json");

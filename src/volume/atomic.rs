@@ -231,7 +231,15 @@ fn destination(path: &Path) -> Result<Destination> {
             }
         },
         Ok(m) if m.is_dir() => return Err(out("is a folder, expected a file name".into())),
-        Ok(m) if let Some(fd) = open_descriptor(&m) => return Ok(Destination::Descriptor(fd)),
+        // A log file standard output or error is redirected to. Devices and pipes named
+        // directly (/dev/null, a FIFO) are streams even when a descriptor is open on them too
+        // (`2>/dev/null`): written straight through either way.
+        Ok(m)
+            if m.is_file()
+                && let Some(fd) = open_descriptor(&m) =>
+        {
+            return Ok(Destination::Descriptor(fd));
+        }
         Ok(m) if !m.is_file() => return Ok(Destination::Stream),
         _ => path.to_path_buf(),
     };
