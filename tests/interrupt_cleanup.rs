@@ -3,13 +3,14 @@
 //!
 //! The call locks the list of pending writes for good (the handler exits right after), so the
 //! check runs in a child process: this test binary started again with `VOXPERM_INTERRUPT_DIR`
-//! set, which exits from inside the write, as the handler does.
+//! and the parent's process id set, which exits from inside the write, as the handler does.
 
 use std::io::Write;
 use std::path::Path;
 use std::process::Command;
 
 const CHILD_ENV: &str = "VOXPERM_INTERRUPT_DIR";
+const PARENT_ENV: &str = "VOXPERM_INTERRUPT_PARENT";
 const TEST: &str = "an_interrupt_removes_and_counts_the_unfinished_outputs";
 
 /// The child: starts a write, "interrupts" it halfway and reports what it saw on stdout.
@@ -29,7 +30,11 @@ fn child(dir: &Path) -> ! {
 
 #[test]
 fn an_interrupt_removes_and_counts_the_unfinished_outputs() {
-    if let Some(dir) = std::env::var_os(CHILD_ENV) {
+    // The child is the process this test started: its parent's id travels with the folder, so
+    // a variable left in the environment cannot turn the test itself into a child.
+    if let (Some(dir), Some(parent)) = (std::env::var_os(CHILD_ENV), std::env::var_os(PARENT_ENV))
+        && parent.to_str() == Some(&std::os::unix::process::parent_id().to_string())
+    {
         child(Path::new(&dir));
     }
     let dir = tempfile::tempdir().unwrap();
@@ -38,6 +43,7 @@ fn an_interrupt_removes_and_counts_the_unfinished_outputs() {
     let out = Command::new(std::env::current_exe().unwrap())
         .args(["--exact", TEST, "--nocapture", "--test-threads", "1"])
         .env(CHILD_ENV, dir.path())
+        .env(PARENT_ENV, std::process::id().to_string())
         .output()
         .unwrap();
     let stdout = String::from_utf8_lossy(&out.stdout);
