@@ -296,46 +296,60 @@ fn voxel_size_round_trips_through_tiff_tags() {
     }
 }
 
-#[test]
-fn voxel_size_from_resolution_tags_alone() {
-    // Written with the tiff crate: 4000 pixels per cm (ResolutionUnit 3 = cm, TIFF 6.0
-    // section 8, from memory) is 2.5 µm, and there is no ImageDescription.
-    let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("res.tif");
+/// A one-slice 3x2 TIFF with resolution tags (unit 2 = inch, 3 = cm; TIFF 6.0 section 8, from
+/// memory) and optionally an ImageDescription.
+/// Resolutions are (numerator, denominator) pixels per unit.
+fn resolution_tiff(
+    path: &Path,
+    unit: u16,
+    x: (u32, u32),
+    y: (u32, u32),
+    description: Option<&str>,
+) {
     let mut buf = Cursor::new(Vec::new());
     let mut enc = TiffEncoder::new(&mut buf).unwrap();
     let mut img = enc.new_image::<Gray8>(3, 2).unwrap();
-    img.encoder().write_tag(Tag::ResolutionUnit, 3u16).unwrap();
-    img.encoder()
-        .write_tag(Tag::XResolution, Rational { n: 4000, d: 1 })
-        .unwrap();
-    img.encoder()
-        .write_tag(Tag::YResolution, Rational { n: 4000, d: 1 })
-        .unwrap();
+    img.encoder().write_tag(Tag::ResolutionUnit, unit).unwrap();
+    for (tag, (n, d)) in [(Tag::XResolution, x), (Tag::YResolution, y)] {
+        img.encoder().write_tag(tag, Rational { n, d }).unwrap();
+    }
+    if let Some(text) = description {
+        img.encoder()
+            .write_tag(Tag::ImageDescription, text)
+            .unwrap();
+    }
     img.write_data(&[0u8; 6]).unwrap();
-    fs::write(&path, buf.into_inner()).unwrap();
-    let size = load(&path, None, &limits()).unwrap().voxel_size.unwrap();
+    fs::write(path, buf.into_inner()).unwrap();
+}
+
+#[test]
+fn voxel_size_from_resolution_tags_alone() {
+    // 4000 pixels per cm is 2.5 µm, with no ImageDescription.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("res.tif");
+    let read = |unit, x, y, desc| {
+        resolution_tiff(&path, unit, x, y, desc);
+        load(&path, None, &limits()).unwrap().voxel_size.unwrap()
+    };
+    let size = read(3, (4000, 1), (4000, 1), None);
     assert!((size.metres - 2.5e-6).abs() < 1e-18, "{}", size.metres);
     assert!(size.source.not_cubic(size.metres).is_none());
     // A y resolution of half the x one: voxels twice as long along y.
-    let mut buf = Cursor::new(Vec::new());
-    let mut enc = TiffEncoder::new(&mut buf).unwrap();
-    let mut img = enc.new_image::<Gray8>(3, 2).unwrap();
-    img.encoder().write_tag(Tag::ResolutionUnit, 3u16).unwrap();
-    img.encoder()
-        .write_tag(Tag::XResolution, Rational { n: 4000, d: 1 })
-        .unwrap();
-    img.encoder()
-        .write_tag(Tag::YResolution, Rational { n: 2000, d: 1 })
-        .unwrap();
-    img.write_data(&[0u8; 6]).unwrap();
-    fs::write(&path, buf.into_inner()).unwrap();
-    let size = load(&path, None, &limits()).unwrap().voxel_size.unwrap();
+    let size = read(3, (4000, 1), (2000, 1), None);
     let (how, ratio) = size.source.not_cubic(size.metres).unwrap();
     assert!(
         (ratio - 2.0).abs() < 1e-12 && how.contains("y size 5 µm"),
         "{how}"
     );
+    // A 72 dpi y is a placeholder, as it would be for x: no claim about the voxel shape.
+    let size = read(2, (25400, 1), (72, 1), None);
+    assert!((size.metres - 1e-6).abs() < 1e-18, "{}", size.metres);
+    assert!(size.source.not_cubic(size.metres).is_none(), "{size:?}");
+    // An implausible x (0.001 pixels per cm: 10 m voxels) is not used, and then its y is not
+    // compared with the description's spacing either.
+    let size = read(3, (1, 1000), (10000, 1), Some("unit=micron\nspacing=2\n"));
+    assert!((size.metres - 2e-6).abs() < 1e-18, "{}", size.metres);
+    assert!(size.source.not_cubic(size.metres).is_none(), "{size:?}");
 }
 
 #[test]
@@ -399,14 +413,21 @@ fn voxel_size_from_description_unit_and_spacing() {
         crop: None,
         voxel_size_m: None,
     };
-    let sample = voxperm::volume::sample::load_sample(&spec, &limits()).unwrap();
-    let warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &spec.path);
-    assert!(
-        warnings
-            .iter()
-            .any(|w| w.contains("not cubic") && w.contains("ratio 2.000")),
-        "{warnings:?}"
-    );
+    // A --voxel-size (here the file's own x size) does not make the voxels cubic: still warned.
+    for given in [None, Some(5e-6)] {
+        let spec = voxperm::volume::sample::SampleSpec {
+            voxel_size_m: given,
+            ..spec.clone()
+        };
+        let sample = voxperm::volume::sample::load_sample(&spec, &limits()).unwrap();
+        let warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &spec.path);
+        assert!(
+            warnings
+                .iter()
+                .any(|w| w.contains("not cubic") && w.contains("ratio 2.000")),
+            "{given:?}: {warnings:?}"
+        );
+    }
 }
 
 #[test]

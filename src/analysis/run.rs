@@ -263,12 +263,12 @@ pub fn voxel_size_warnings(sample: &Sample, path: &std::path::Path) -> Vec<Strin
             path.display()
         ));
     }
-    if let Some(v) = &sample.voxel_size
-        && sample.overridden_voxel_size.is_none()
+    if let Some(v) = &sample.file_voxel_size
         && let Some((how, ratio)) = v.source.not_cubic(v.metres)
     {
+        // One --voxel-size cannot make the image's voxels cubic, so it does not silence this.
         warnings.push(format!(
-            "{} records voxels that are not cubic ({how}, ratio {ratio:.3}); the solver treats them as cubic with the x size, so k is off by an amount that grows with that ratio: resample the image to cubic voxels (or, if the file's resolution is wrong, give --voxel-size)",
+            "{} records voxels that are not cubic ({how}, ratio {ratio:.3}); the solver treats them as cubic with one edge length, so k is off by an amount that grows with that ratio: resample the image to cubic voxels (or correct the file's resolution if it is wrong)",
             path.display()
         ));
     }

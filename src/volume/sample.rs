@@ -33,6 +33,9 @@ pub struct Sample {
     pub crop_origin: [usize; 3],
     /// The file's own voxel size when `--voxel-size` replaced it with a different one.
     pub overridden_voxel_size: Option<VoxelSize>,
+    /// The voxel size the file records, whether or not `--voxel-size` replaced it: what the
+    /// file says about the image's voxels (e.g. that they are not cubic).
+    pub file_voxel_size: Option<VoxelSize>,
     /// Sample type of the voxels ("u8", "u16", "f32").
     pub sample_type: String,
 }
@@ -49,6 +52,7 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         vol = crop(&vol, &c);
         cropped = Some(c);
     }
+    let file_voxel_size = vol.voxel_size.clone();
     let mut overridden_voxel_size = None;
     if let Some(m) = spec.voxel_size_m {
         overridden_voxel_size = vol
@@ -67,6 +71,7 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         file_shape,
         crop_origin,
         overridden_voxel_size,
+        file_voxel_size,
         sample_type: vol.data.kind().to_string(),
     })
 }

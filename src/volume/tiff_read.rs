@@ -312,16 +312,23 @@ pub(crate) fn file_voxel_size(dec: &mut TiffDecoder, path: &Path) -> Option<Voxe
             Some(2) => (0.0254, "inch".to_string()),
             _ => (desc.unit?, desc.unit_name.clone()?),
         };
+        let size = metres_per_unit / x;
+        if !plausible(size) {
+            return None;
+        }
+        // A y resolution that differs means voxels that are not square in plane, unless it is
+        // a placeholder (72 or 96 dpi, as for x).
+        let placeholder_y = |y: f64| res_unit == Some(2) && PLACEHOLDER_DPI.contains(&y);
         if let Some(y) = yres
             && (y - x).abs() > 1e-3 * x
+            && !placeholder_y(y)
         {
             notes.push(format!(
                 "YResolution {y} differs from XResolution {x}; using x"
             ));
             row_size = Some(metres_per_unit / y).filter(|&v| plausible(v));
         }
-        let size = metres_per_unit / x;
-        plausible(size).then(|| (size, format!("XResolution {x} pixels/{unit_name}")))
+        Some((size, format!("XResolution {x} pixels/{unit_name}")))
     });
     let spacing = desc
         .spacing
