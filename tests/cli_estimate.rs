@@ -617,8 +617,8 @@ fn describe_flags_an_all_pore_volume() {
     let (code, stdout, stderr) = run(&["describe", raw.to_str().unwrap(), "--raw-shape", "8x8x8"]);
     assert_eq!(code, 0, "{stdout}\n{stderr}");
     assert!(
-        stdout.contains("every voxel is pore: estimate refuses it"),
-        "{stdout}"
+        stderr.contains("warning: every voxel is pore: estimate refuses it"),
+        "{stderr}"
     );
     let (code, _, stderr) = run(&["estimate", raw.to_str().unwrap(), "--raw-shape", "8x8x8"]);
     assert_eq!(code, 3, "{stderr}");
@@ -633,11 +633,21 @@ fn describe_flags_an_all_pore_volume() {
         "--pore",
         "above",
     ];
-    let (code, stdout, stderr) = run(&none);
+    // Said as a warning, so -q and the JSON keep it.
+    let j = dir.path().join("none.json");
+    let mut quiet = none.to_vec();
+    quiet.extend(["-q", "--json", j.to_str().unwrap()]);
+    let (code, stdout, stderr) = run(&quiet);
     assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(stdout.is_empty(), "{stdout}");
     assert!(
-        stdout.contains("no voxel is pore: estimate refuses it"),
-        "{stdout}"
+        stderr.contains("warning: no voxel is pore: estimate refuses it"),
+        "{stderr}"
+    );
+    let v: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+    assert!(
+        v["warnings"].to_string().contains("no voxel is pore"),
+        "{v}"
     );
     let mut estimate = none;
     estimate[0] = "estimate";

@@ -69,7 +69,13 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     let voxels = mask.len() as u64;
     let bytes_per_sample = bytes_per_sample(&sample.sample_type);
 
-    let warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &a.sample);
+    let mut warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &a.sample);
+    // What estimate would refuse, said where -q and --json - still show it.
+    if g.pore_voxels as u64 == voxels {
+        warnings.push("every voxel is pore: estimate refuses it (no solid phase, most likely a segmentation slip); check --pore-label or --threshold".into());
+    } else if g.pore_voxels == 0 {
+        warnings.push("no voxel is pore: estimate refuses it (all solid); check --pore-label, --threshold and --pore".into());
+    }
     for w in &warnings {
         super::args::note(format_args!("warning: {w}"));
     }
@@ -99,17 +105,6 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         "porosity    {:.4} total ({} pore voxels)",
         g.total_porosity, g.pore_voxels
     );
-    if g.pore_voxels as u64 == voxels {
-        let _ = writeln!(
-            out,
-            "            every voxel is pore: estimate refuses it (no solid phase, most likely a segmentation slip); check --pore-label or --threshold"
-        );
-    } else if g.pore_voxels == 0 {
-        let _ = writeln!(
-            out,
-            "            no voxel is pore: estimate refuses it (all solid); check --pore-label, --threshold and --pore"
-        );
-    }
     let mut axes_json = Vec::new();
     for ap in &g.axes {
         let axis = ap.axis;
