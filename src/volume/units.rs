@@ -55,32 +55,10 @@ pub fn parse_length(s: &str) -> Result<f64> {
     }
     let Some(scale) = unit_to_metres(unit) else {
         // "2,5um" or "1,000nm": a comma, which the number stops at. Decimal or thousands?
-        if let Some(rest) = unit.strip_prefix(',')
-            && rest.starts_with(|c: char| c.is_ascii_digit())
-        {
-            let digits = rest.chars().take_while(char::is_ascii_digit).count();
-            // With no unit after the digits, suggest the usual micro-CT one.
-            let unit_hint = if rest[digits..].trim().is_empty() {
-                "um"
-            } else {
-                ""
-            };
-            let point = format!("{}{unit_hint}", text.replacen(',', ".", 1));
-            let hint = if digits == 3 {
-                let joined = format!("{}{unit_hint}", text.replacen(',', "", 1));
-                format!(
-                    "{point} if the comma is a decimal separator, {joined} if it separates thousands"
-                )
-            } else {
-                format!("{point} (decimal point)")
-            };
-            let hint = if unit_hint.is_empty() {
-                hint
-            } else {
-                format!("{hint}, with the unit you mean (um = micrometres)")
-            };
+        if unit.starts_with(',') {
             return Err(Error::Usage(format!(
-                "'{s}': numbers take no comma; write {hint}"
+                "'{s}': numbers take no comma{}",
+                comma_hint(text)
             )));
         }
         return Err(Error::Usage(format!(
@@ -94,6 +72,42 @@ pub fn parse_length(s: &str) -> Result<f64> {
         )));
     }
     Ok(metres)
+}
+
+/// The readings of a number written with commas that parse as lengths: one comma as a decimal
+/// separator, or commas before groups of three digits as thousands separators. Each is offered
+/// only if it parses, with "um" added when the text has no unit.
+fn comma_hint(text: &str) -> String {
+    let commas = text.matches(',').count();
+    let groups_of_three = text
+        .split(',')
+        .skip(1)
+        .all(|g| g.chars().take_while(char::is_ascii_digit).count() == 3);
+    let mut readings = Vec::new();
+    if commas == 1 {
+        readings.push((text.replacen(',', ".", 1), "decimal separator"));
+    }
+    if groups_of_three {
+        readings.push((text.replace(',', ""), "thousands separator"));
+    }
+    let usable: Vec<String> = readings
+        .into_iter()
+        .filter_map(|(t, why)| {
+            if parse_length(&t).is_ok() {
+                Some(format!("{t} (comma as {why})"))
+            } else {
+                let with_unit = format!("{t}um");
+                parse_length(&with_unit)
+                    .is_ok()
+                    .then(|| format!("{with_unit} (comma as {why}; um if micrometres)"))
+            }
+        })
+        .collect();
+    if usable.is_empty() {
+        String::new()
+    } else {
+        format!("; write {}", usable.join(", or "))
+    }
 }
 
 /// Splits "1e-6m" into (1e-6, "m"): the longest prefix that parses as a number wins, so an
@@ -196,20 +210,46 @@ mod tests {
         let Err(Error::Usage(msg)) = parse_length("2,5um") else {
             panic!()
         };
-        assert!(msg.contains("2.5um (decimal point)"), "{msg}");
-        // Three digits after it may be thousands: both readings are named.
-        let Err(Error::Usage(msg)) = parse_length("1,000nm") else {
-            panic!()
-        };
         assert!(
-            msg.contains("1.000nm if") && msg.contains("1000nm if"),
+            msg.contains("write 2.5um (comma as decimal separator)"),
+            "{msg}"
+        );
+        // Three digits after it may be thousands: both readings are named.
+        let hint = |t: &str| match parse_length(t) {
+            Err(Error::Usage(msg)) => msg,
+            other => panic!("{t}: {other:?}"),
+        };
+        let msg = hint("1,000nm");
+        assert!(
+            msg.contains("1.000nm (comma as decimal separator)")
+                && msg.contains("1000nm (comma as thousands separator)"),
             "{msg}"
         );
         // Without a unit the suggestion carries one, so it can be used as given.
-        let Err(Error::Usage(msg)) = parse_length("2,5") else {
-            panic!()
-        };
-        assert!(msg.contains("2.5um"), "{msg}");
+        assert!(
+            hint("2,5").contains("2.5um (comma as decimal separator; um if micrometres)"),
+            "{}",
+            hint("2,5")
+        );
+        // Several commas: thousands only; mixed groups or a bad unit: no suggestion that
+        // would fail again.
+        let msg = hint("1,000,000nm");
+        assert!(
+            msg.contains("write 1000000nm (comma as thousands") && !msg.contains("1.000"),
+            "{msg}"
+        );
+        let msg = hint("1,000.5um");
+        assert!(
+            msg.contains("write 1000.5um (comma as thousands") && !msg.contains("1.000.5"),
+            "{msg}"
+        );
+        for t in ["1,250,5um", "2,5xyz"] {
+            let msg = hint(t);
+            assert!(
+                msg.contains("no comma") && !msg.contains("write"),
+                "{t}: {msg}"
+            );
+        }
     }
 
     #[test]
