@@ -351,15 +351,6 @@ fn settings(cfg: &RunConfig, threads: usize) -> Settings {
     }
 }
 
-/// The crop box in the option's own syntax, e.g. ":,10:50,:".
-pub fn crop_text(c: &CropSpec) -> String {
-    let side = |(a, b): (Option<usize>, Option<usize>)| {
-        let n = |v: Option<usize>| v.map_or(String::new(), |v| v.to_string());
-        format!("{}:{}", n(a), n(b))
-    };
-    c.bounds.map(side).join(",")
-}
-
 fn input_record(spec: &SampleSpec, s: &Sample) -> Result<InputRecord> {
     Ok(InputRecord {
         path: spec.path.display().to_string(),
@@ -368,14 +359,10 @@ fn input_record(spec: &SampleSpec, s: &Sample) -> Result<InputRecord> {
         shape: s.mask.shape(),
         sample_type: s.sample_type.clone(),
         segmentation: spec.segmentation.to_string(),
-        crop: spec.crop.as_ref().map(crop_text),
+        crop: spec.crop.as_ref().map(CropSpec::to_string),
         raw_layout: spec.raw.as_ref().map(|r| {
             let [x, y, z] = r.shape;
-            let endian = match r.endian {
-                crate::volume::Endian::Little => "little-endian",
-                crate::volume::Endian::Big => "big-endian",
-            };
-            format!("{x}x{y}x{z} {} {endian}", r.kind)
+            format!("{x}x{y}x{z} {} {}-endian", r.kind, r.endian)
         }),
         voxel_size_source: s
             .voxel_size
@@ -393,7 +380,7 @@ mod tests {
     #[test]
     fn crop_text_round_trips() {
         for s in [":,10:50,:", "0:4,:8,3:"] {
-            assert_eq!(crop_text(&CropSpec::parse(s).unwrap()), s);
+            assert_eq!(CropSpec::parse(s).unwrap().to_string(), s);
         }
     }
 }

@@ -6,7 +6,7 @@
 //! and the voxperm version (delete the results folder to redo a batch after an upgrade).
 
 use super::result::ResultView;
-use crate::analysis::run::{RunConfig, crop_text};
+use crate::analysis::run::RunConfig;
 use crate::volume::sample::SampleSpec;
 use serde_json::{Value, json};
 use sha2::{Digest, Sha256};
@@ -16,12 +16,12 @@ use std::path::Path;
 pub fn sample_settings(spec: &SampleSpec, cfg: &RunConfig) -> Value {
     json!({
         "segmentation": spec.segmentation.to_string(),
-        "crop": spec.crop.as_ref().map(crop_text),
+        "crop": spec.crop.as_ref().map(ToString::to_string),
         "voxel_size_m": spec.voxel_size_m,
         "raw": spec.raw.map(|r| json!({
             "shape": r.shape,
             "type": r.kind.to_string(),
-            "endian": format!("{:?}", r.endian).to_lowercase(),
+            "endian": r.endian.to_string(),
         })),
         "axes": cfg.axes,
         "boundary": cfg.mode,

@@ -87,15 +87,25 @@ pub struct Crop {
     pub ranges: [Range<usize>; 3],
 }
 
-/// The box as `--crop` takes it: `x0:x1,y0:y1,z0:z1`.
+/// The box as `--crop` takes it: `x0:x1,y0:y1,z0:z1`, open ends left empty (`:,10:50,:`).
+impl std::fmt::Display for CropSpec {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let side = |(a, b): (Option<usize>, Option<usize>)| {
+            let n = |v: Option<usize>| v.map_or(String::new(), |v| v.to_string());
+            format!("{}:{}", n(a), n(b))
+        };
+        f.write_str(&self.bounds.map(side).join(","))
+    }
+}
+
+/// The resolved box in the `--crop` syntax, every end given.
 impl std::fmt::Display for Crop {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        let [x, y, z] = &self.ranges;
-        write!(
-            f,
-            "{}:{},{}:{},{}:{}",
-            x.start, x.end, y.start, y.end, z.start, z.end
-        )
+        let spec = CropSpec {
+            bounds: self.ranges.clone().map(|r| (Some(r.start), Some(r.end))),
+            text: String::new(),
+        };
+        spec.fmt(f)
     }
 }
 

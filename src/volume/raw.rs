@@ -52,6 +52,16 @@ impl fmt::Display for RawType {
     }
 }
 
+/// "little" or "big", as `--raw-endian` takes it.
+impl fmt::Display for Endian {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            Endian::Little => "little",
+            Endian::Big => "big",
+        })
+    }
+}
+
 /// Byte order of multi-byte samples.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 pub enum Endian {
