@@ -178,47 +178,33 @@ mod tests {
 
     #[test]
     fn bare_number_and_wrong_units_are_usage_errors() {
+        let hint = |t: &str| match parse_length(t) {
+            Err(Error::Usage(msg)) => msg,
+            other => panic!("{t}: expected a usage error, got {other:?}"),
+        };
         for s in ["2.5", "5kg", "5s", "5 sec", "um", "", "2.5em", "5 px"] {
-            match parse_length(s) {
-                Err(Error::Usage(msg)) => assert!(msg.contains("um"), "{s}: {msg}"),
-                other => panic!("{s}: expected a usage error, got {other:?}"),
-            }
+            let msg = hint(s);
+            assert!(msg.contains("um"), "{s}: {msg}");
         }
-        let Err(Error::Usage(msg)) = parse_length("5kg") else {
-            panic!()
-        };
+        let msg = hint("5kg");
         assert!(msg.contains("not a length unit"), "{msg}");
-        let Err(Error::Usage(msg)) = parse_length("2.5") else {
-            panic!()
-        };
+        let msg = hint("2.5");
         assert!(msg.contains("no unit"), "{msg}");
         // The hint keeps the number as typed: a metre value is not turned into a micrometre one.
-        let Err(Error::Usage(msg)) = parse_length("2.5e-6") else {
-            panic!()
-        };
+        let msg = hint("2.5e-6");
         assert!(msg.contains("2.5e-6m if that is metres (2.5 µm)"), "{msg}");
         assert!(!msg.contains("0.0000025"), "{msg}");
-        let Err(Error::Usage(msg)) = parse_length("3.2") else {
-            panic!()
-        };
+        let msg = hint("3.2");
         assert!(msg.contains("3.2um if that is micrometres"), "{msg}");
-        let Err(Error::Usage(msg)) = parse_length("0.005") else {
-            panic!()
-        };
+        let msg = hint("0.005");
         assert!(msg.contains("0.005um if that is micrometres"), "{msg}");
         // A comma is named as such, with the spelling that works.
-        let Err(Error::Usage(msg)) = parse_length("2,5um") else {
-            panic!()
-        };
+        let msg = hint("2,5um");
         assert!(
             msg.contains("write 2.5um (comma as decimal separator)"),
             "{msg}"
         );
         // Three digits after it may be thousands: both readings are named.
-        let hint = |t: &str| match parse_length(t) {
-            Err(Error::Usage(msg)) => msg,
-            other => panic!("{t}: {other:?}"),
-        };
         let msg = hint("1,000nm");
         assert!(
             msg.contains("1.000nm (comma as decimal separator)")
