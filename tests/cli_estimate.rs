@@ -603,7 +603,10 @@ fn json_dash_goes_to_standard_output() {
     assert!(!in_json.is_empty(), "{stdout}");
     for w in in_json {
         let w = w.as_str().unwrap();
-        assert!(stderr.contains(&format!("warning: {w}")), "{w}\n{stderr}");
+        assert!(
+            stderr.contains(&format!("voxperm: warning: {w}")),
+            "{w}\n{stderr}"
+        );
     }
 }
 
@@ -617,7 +620,7 @@ fn describe_flags_an_all_pore_volume() {
     let (code, stdout, stderr) = run(&["describe", raw.to_str().unwrap(), "--raw-shape", "8x8x8"]);
     assert_eq!(code, 0, "{stdout}\n{stderr}");
     assert!(
-        stderr.contains("warning: every voxel is pore: estimate refuses it"),
+        stderr.contains("voxperm: warning: every voxel is pore: estimate refuses it"),
         "{stderr}"
     );
     let (code, _, stderr) = run(&["estimate", raw.to_str().unwrap(), "--raw-shape", "8x8x8"]);
@@ -641,7 +644,7 @@ fn describe_flags_an_all_pore_volume() {
     assert_eq!(code, 0, "{stdout}\n{stderr}");
     assert!(stdout.is_empty(), "{stdout}");
     assert!(
-        stderr.contains("warning: no voxel is pore: estimate refuses it"),
+        stderr.contains("voxperm: warning: no voxel is pore: estimate refuses it"),
         "{stderr}"
     );
     let v: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();

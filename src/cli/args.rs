@@ -354,6 +354,11 @@ pub fn note(line: impl std::fmt::Display) {
     let _ = writeln!(std::io::stderr(), "{line}");
 }
 
+/// A warning on standard error, in the one form every subcommand uses: `voxperm: warning: …`.
+pub fn warn(what: impl std::fmt::Display) {
+    note(format_args!("voxperm: warning: {what}"));
+}
+
 /// Prints `text` on standard output. A closed or broken standard output (a reader that quit
 /// early, `>&-`) is an output error, one line and exit 3, never a panic.
 pub fn print_out(text: &str) -> Result<()> {

@@ -335,8 +335,8 @@ pub fn from_folder(
     let is_raw =
         |p: &Path| p.is_file() && p.extension().is_some_and(|e| e.eq_ignore_ascii_case("raw"));
     if raw && !paths.iter().any(|p| is_raw(p)) {
-        super::args::note(format_args!(
-            "voxperm: warning: {}: --raw-shape is given but the folder holds no .raw file, so it is not used (raw files must end in .raw)",
+        super::args::warn(format_args!(
+            "{}: --raw-shape is given but the folder holds no .raw file, so it is not used (raw files must end in .raw)",
             folder.display()
         ));
     }

@@ -76,9 +76,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     } else if g.pore_voxels == 0 {
         warnings.push("no voxel is pore: estimate refuses it (all solid); check --pore-label, --threshold and --pore".into());
     }
-    for w in &warnings {
-        super::args::note(format_args!("warning: {w}"));
-    }
+    warnings.iter().for_each(super::args::warn);
     let mut out = String::new();
     let [nx, ny, nz] = g.shape;
     let _ = writeln!(

@@ -87,9 +87,7 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     }
     if !a.quiet {
         if json_on_stdout {
-            for w in &result.report.warnings {
-                super::args::note(format_args!("warning: {w}"));
-            }
+            result.report.warnings.iter().for_each(super::args::warn);
         } else {
             super::args::print_out(&summary::render(&result.report))?;
         }

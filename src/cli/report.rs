@@ -196,7 +196,7 @@ fn from_folder(folder: &Path) -> Result<Collected> {
         match ResultView::read(&f) {
             Ok(r) => entries.push(entry(&f, r)),
             // Other JSON files may share the folder; they are not ours to report.
-            Err(e) => super::args::note(format_args!("voxperm: warning: skipped {e}")),
+            Err(e) => super::args::warn(format_args!("skipped {e}")),
         }
     }
     let summary = folder.join("summary.json");
@@ -209,8 +209,8 @@ fn from_folder(folder: &Path) -> Result<Collected> {
     entries.retain(|e| {
         let listed = rows.iter().any(|r| r.name == e.name);
         if !listed {
-            super::args::note(format_args!(
-                "voxperm: warning: skipped the result '{}' in {}: {} does not list it (left from an earlier batch?)",
+            super::args::warn(format_args!(
+                "skipped the result '{}' in {}: {} does not list it (left from an earlier batch?)",
                 e.name,
                 folder.display(),
                 summary.display()
