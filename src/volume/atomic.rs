@@ -107,8 +107,14 @@ pub fn write_atomically(
     };
 
     let (mut tmp, handle) = create_temporary(&folder, &name.to_string_lossy(), path)?;
-    // A replaced file keeps its permissions (a private 600 result stays private).
+    // A replaced file keeps its permissions (a private 600 result stays private) and, where
+    // the process may set it (root rewriting another user's file), its owner and group.
     if let Ok(old) = fs::metadata(&file) {
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::MetadataExt;
+            let _ = std::os::unix::fs::fchown(&handle, Some(old.uid()), Some(old.gid()));
+        }
         let _ = handle.set_permissions(old.permissions());
     }
     write_and_sync(handle, path, f)?;
@@ -530,6 +536,29 @@ mod tests {
             fs::metadata(&path).unwrap().permissions().mode() & 0o777,
             0o600
         );
+        assert_eq!(fs::read(&path).unwrap(), b"new");
+    }
+
+    /// Root rewriting another user's file gives it back to that user. Run as another user the
+    /// set-up `chown` is not allowed, and the test checks only that the owner stays ours.
+    #[cfg(unix)]
+    #[test]
+    fn a_replaced_file_keeps_its_owner() {
+        use std::os::unix::fs::MetadataExt;
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("theirs.json");
+        fs::write(&path, b"old").unwrap();
+        let ours = fs::metadata(&path).unwrap();
+        let (uid, gid) = match std::os::unix::fs::chown(&path, Some(54321), Some(54322)) {
+            Ok(()) => (54321, 54322),
+            Err(_) => (ours.uid(), ours.gid()),
+        };
+        write_atomically(&path, |w| {
+            w.write_all(b"new").map_err(|e| output_error(&path, e))
+        })
+        .unwrap();
+        let now = fs::metadata(&path).unwrap();
+        assert_eq!((now.uid(), now.gid()), (uid, gid));
         assert_eq!(fs::read(&path).unwrap(), b"new");
     }
 
