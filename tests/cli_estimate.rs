@@ -610,6 +610,61 @@ fn json_dash_goes_to_standard_output() {
     }
 }
 
+/// A raw file read with the wrong sample type but a matching byte count (16-bit labels read
+/// as 8-bit, twice as many voxels) solves a scrambled structure; the values show it, and both
+/// describe and estimate say so. Read as what it is, the same file raises no doubt.
+#[test]
+fn a_raw_file_read_with_the_wrong_type_is_flagged() {
+    let dir = tempfile::tempdir().unwrap();
+    let raw = dir.path().join("labels16.raw");
+    let mask = sphere_cell(12, 4.0);
+    let bytes: Vec<u8> = mask
+        .as_slice()
+        .iter()
+        .flat_map(|&pore| (!pore as u16).to_le_bytes())
+        .collect();
+    std::fs::write(&raw, bytes).unwrap();
+    let path = raw.to_str().unwrap();
+    let sign = "every second voxel in file order is 0 while the others vary, as 16-bit data read as u8 would";
+    let (code, stdout, stderr) = run(&["describe", path, "--raw-shape", "24x12x12", "-q"]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(
+        stderr.contains(&format!("voxperm: warning: {path}: {sign}")),
+        "{stderr}"
+    );
+    let j = dir.path().join("wrong.json");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        path,
+        "--raw-shape",
+        "24x12x12",
+        "--periodic",
+        "--axis",
+        "x",
+        "-q",
+        "--json",
+        j.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let v: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+    let warned = v["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|w| w.as_str().unwrap().contains(sign));
+    assert!(warned, "{v}");
+    let (code, stdout, stderr) = run(&[
+        "describe",
+        path,
+        "--raw-shape",
+        "12x12x12",
+        "--raw-type",
+        "u16",
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(!stderr.contains("file order"), "{stderr}");
+}
+
 /// describe reports an all-pore (or pore-free) volume's geometry and says that estimate will
 /// refuse it.
 #[test]

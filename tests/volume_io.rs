@@ -420,7 +420,7 @@ fn voxel_size_from_description_unit_and_spacing() {
             ..spec.clone()
         };
         let sample = voxperm::volume::sample::load_sample(&spec, &limits()).unwrap();
-        let warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &spec.path);
+        let warnings = voxperm::analysis::run::sample_warnings(&sample, &spec.path);
         assert!(
             warnings
                 .iter()

@@ -94,7 +94,7 @@ pub fn run_sample(
         if voxel_m.is_none() {
             warnings.push("no voxel size given or found in the file: permeability in voxel² only (use --voxel-size)".into());
         }
-        warnings.extend(voxel_size_warnings(&sample, &spec.path));
+        warnings.extend(sample_warnings(&sample, &spec.path));
         // Faces across the grid boundary count only for a fully periodic cell (as in `describe`).
         let surface = measure_surface(&sample.mask, [cfg.mode == BoundaryMode::PERIODIC; 3]);
         let porosity = sample.mask.porosity();
@@ -251,10 +251,15 @@ fn geometry_record(porosity: f64, s: &Surface, voxel_m: Option<f64>) -> Geometry
     }
 }
 
-/// Advice about the voxel size: one given on the command line that replaces the file's own,
-/// and one outside the usual range of 3D images. Shared by `estimate` and `describe`.
-pub fn voxel_size_warnings(sample: &Sample, path: &std::path::Path) -> Vec<String> {
+/// Advice about the loaded sample: a raw file whose values suggest a wrong `--raw-type`, a
+/// voxel size given on the command line that replaces the file's own, voxels the file records
+/// as not cubic, and a voxel size outside the usual range of 3D images. Shared by `estimate`
+/// (and so `batch`) and `describe`.
+pub fn sample_warnings(sample: &Sample, path: &std::path::Path) -> Vec<String> {
     let mut warnings = Vec::new();
+    if let Some(doubt) = &sample.type_doubt {
+        warnings.push(format!("{}: {doubt}", path.display()));
+    }
     if let (Some(file), Some(used)) = (&sample.overridden_voxel_size, &sample.voxel_size) {
         warnings.push(format!(
             "voxel size {} given by the user replaces the {} recorded in {}",

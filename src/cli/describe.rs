@@ -69,7 +69,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     let voxels = mask.len() as u64;
     let bytes_per_sample = bytes_per_sample(&sample.sample_type);
 
-    let mut warnings = voxperm::analysis::run::voxel_size_warnings(&sample, &a.sample);
+    let mut warnings = voxperm::analysis::run::sample_warnings(&sample, &a.sample);
     // What estimate would refuse, said where -q and --json - still show it.
     if g.pore_voxels as u64 == voxels {
         warnings.push("every voxel is pore: estimate refuses it (no solid phase, most likely a segmentation slip); check --pore-label or --threshold".into());

@@ -205,6 +205,76 @@ fn read_samples<const N: usize>(
     Ok(())
 }
 
+/// Signs in the values that a raw file was read with the wrong sample type: nothing in a raw
+/// file says its type, and a wrong one with a matching byte count (a u8 file of 2N voxels read
+/// as N u16 voxels) otherwise gives a plausible-looking but scrambled structure. Returns one
+/// sentence for a warning, or `None` when nothing looks wrong. Checks (common practice for
+/// spotting a mis-declared raw layout, not from a published source):
+/// - u16 values built from the same few byte values in both halves, mixed (0, 1, 256 and 257):
+///   8-bit labels read two voxels at a time;
+/// - one value in every second voxel (every fourth for u8) while the others vary: the constant
+///   high (or low) part of wider samples, i.e. 16-bit data read as u8, or 32-bit as u16 or u8.
+///   A structure that repeats exactly every 2 or 4 voxels in file order (plates across x at
+///   that spacing: synthetic images only) shows the same sign and gets the warning too.
+pub fn wrong_type_sign(data: &VoxelData) -> Option<String> {
+    const MIN_VOXELS: usize = 64;
+    if data.len() < MIN_VOXELS {
+        return None;
+    }
+    match data {
+        VoxelData::U8(v) => constant_phase(v, 2, "16-bit data read as u8")
+            .or_else(|| constant_phase(v, 4, "32-bit data read as u8")),
+        VoxelData::U16(v) => {
+            let (mut lo, mut hi) = ([0u64; 4], [0u64; 4]);
+            let mut mixed = false;
+            for &x in v {
+                let (l, h) = ((x & 0xff) as usize, (x >> 8) as usize);
+                lo[l / 64] |= 1 << (l % 64);
+                hi[h / 64] |= 1 << (h % 64);
+                mixed |= l != h;
+            }
+            let bytes: u32 = lo.iter().map(|w| w.count_ones()).sum();
+            if lo == hi && (2..=4).contains(&bytes) && mixed {
+                let set: Vec<String> = (0..256)
+                    .filter(|&b| lo[b / 64] >> (b % 64) & 1 == 1)
+                    .map(|b| b.to_string())
+                    .collect();
+                return Some(format!(
+                    "every u16 value pairs two bytes from {{{}}}, as 8-bit labels read two voxels at a time would: if the file is 8-bit, give --raw-type u8 with its full shape",
+                    set.join(", ")
+                ));
+            }
+            constant_phase(v, 2, "32-bit data read as u16")
+        }
+        VoxelData::F32(_) => None,
+    }
+}
+
+/// "every second voxel is 0 …" when the values at one position modulo `step` are all equal
+/// while the rest take at least two values.
+fn constant_phase<T: Copy + PartialEq + fmt::Display>(
+    v: &[T],
+    step: usize,
+    what: &str,
+) -> Option<String> {
+    let rest_varies = |p: usize| {
+        let mut others = (0..step)
+            .filter(|&q| q != p)
+            .flat_map(|q| v.iter().skip(q).step_by(step));
+        others.next().is_some_and(|&a| others.any(|&b| b != a))
+    };
+    (0..step).find_map(|p| {
+        let first = v[p];
+        let constant = v.iter().skip(p).step_by(step).all(|&x| x == first);
+        (constant && rest_varies(p)).then(|| {
+            format!(
+                "every {} voxel in file order is {first} while the others vary, as {what} would: check --raw-type and --raw-shape",
+                if step == 2 { "second" } else { "fourth" }
+            )
+        })
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -221,5 +291,86 @@ mod tests {
         assert!(matches!(RawType::parse("i32"), Err(Error::Usage(_))));
         assert_eq!(Endian::parse("Big").unwrap(), Endian::Big);
         assert!(matches!(Endian::parse("middle"), Err(Error::Usage(_))));
+    }
+
+    /// A labelled structure with edges at odd and even positions: spheres on a 16³ grid,
+    /// label 1 inside, 0 outside.
+    fn labels() -> Vec<u8> {
+        let n = 16i32;
+        let centres = [[3, 4, 5], [11, 9, 2], [7, 13, 12], [14, 2, 10]];
+        let mut v = Vec::new();
+        for z in 0..n {
+            for y in 0..n {
+                for x in 0..n {
+                    let inside = centres
+                        .iter()
+                        .any(|c| (x - c[0]).pow(2) + (y - c[1]).pow(2) + (z - c[2]).pow(2) < 10);
+                    v.push(inside as u8);
+                }
+            }
+        }
+        v
+    }
+
+    /// The file's bytes as another sample type would read them, little-endian.
+    fn u16_of(bytes: &[u8]) -> Vec<u16> {
+        bytes
+            .chunks_exact(2)
+            .map(|b| u16::from_le_bytes([b[0], b[1]]))
+            .collect()
+    }
+
+    #[test]
+    fn wrong_sample_type_leaves_signs_in_the_values() {
+        let l = labels();
+        let scaled: Vec<u8> = l.iter().map(|&b| b * 255).collect();
+        let wide: Vec<u8> = l.iter().flat_map(|&b| (b as u16).to_le_bytes()).collect();
+        let float: Vec<u8> = l.iter().flat_map(|&b| (b as f32).to_le_bytes()).collect();
+        let cases = [
+            (VoxelData::U16(u16_of(&l)), "pairs two bytes from {0, 1}"),
+            (
+                VoxelData::U16(u16_of(&scaled)),
+                "pairs two bytes from {0, 255}",
+            ),
+            (
+                VoxelData::U8(wide.clone()),
+                "every second voxel in file order is 0",
+            ),
+            (VoxelData::U16(u16_of(&float)), "as 32-bit data read as u16"),
+            (
+                VoxelData::U8(float),
+                "every fourth voxel in file order is 0",
+            ),
+        ];
+        for (data, sign) in cases {
+            let got = wrong_type_sign(&data).unwrap_or_default();
+            assert!(got.contains(sign), "{sign}: got '{got}'");
+        }
+    }
+
+    #[test]
+    fn right_sample_types_raise_no_doubt() {
+        let l = labels();
+        // 16-bit grey values with noise in both bytes (a scan before segmentation).
+        let grey: Vec<u16> = l
+            .iter()
+            .enumerate()
+            .map(|(i, &b)| 20000 + 9000 * b as u16 + (i * 7919 % 1543) as u16)
+            .collect();
+        // Plates across x every third voxel: a value repeats at a fixed spacing, but not at
+        // the spacing of a wider sample.
+        let plates: Vec<u8> = (0..4096).map(|i| (i % 3 == 0) as u8 * 255).collect();
+        let cases = [
+            VoxelData::U8(l.clone()),
+            VoxelData::U16(l.iter().map(|&b| b as u16 * 3).collect()),
+            // 8-bit labels scaled to the 16-bit range (×257): both bytes equal, never mixed.
+            VoxelData::U16(l.iter().map(|&b| b as u16 * 65535).collect()),
+            VoxelData::U16(grey),
+            VoxelData::U8(plates),
+            VoxelData::F32(l.iter().map(|&b| b as f32).collect()),
+        ];
+        for data in cases {
+            assert_eq!(wrong_type_sign(&data), None, "{:?}", data.kind());
+        }
     }
 }

@@ -38,12 +38,20 @@ pub struct Sample {
     pub file_voxel_size: Option<VoxelSize>,
     /// Sample type of the voxels ("u8", "u16", "f32").
     pub sample_type: String,
+    /// For a raw file, a sign in its values that the given sample type is wrong
+    /// ([`wrong_type_sign`](super::raw::wrong_type_sign)).
+    pub type_doubt: Option<String>,
 }
 
 /// Reads, crops and segments a sample. The voxel values are dropped once the mask exists.
 pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
     let mut vol = load(&spec.path, spec.raw.as_ref(), limits)?;
     let file_shape = vol.shape;
+    // Over the whole file, before a crop: the signs are in the file order of the values.
+    let type_doubt = spec
+        .raw
+        .as_ref()
+        .and_then(|_| super::raw::wrong_type_sign(&vol.data));
     let mut crop_origin = [0; 3];
     let mut cropped = None;
     if let Some(c) = &spec.crop {
@@ -73,6 +81,7 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         overridden_voxel_size,
         file_voxel_size,
         sample_type: vol.data.kind().to_string(),
+        type_doubt,
     })
 }
 
