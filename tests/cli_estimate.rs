@@ -480,6 +480,7 @@ fn short_samples_and_odd_voxel_sizes_are_flagged() {
         .collect();
     for needle in [
         "only 1 voxel(s) long along the flow",
+        "is no measure of the pore size or of the resolution",
         "outside the usual range",
     ] {
         assert!(

@@ -306,7 +306,7 @@ fn solve_warnings(
             let diameters = length as f64 / dh;
             if diameters < MIN_LENGTH_PORE_DIAMETERS {
                 warnings.push(format!(
-                    "axis {}: the sample is only {length} voxel(s) long along the flow, {diameters:.1} pore diameters (4φ/S); so short a sample says little about the material (image or crop a longer one)",
+                    "axis {}: the sample is only {length} voxel(s) long along the flow, {diameters:.1} pore diameters (4φ/S); so short a sample says little about the material (image or crop a longer one), and its 4φ/S, from the few walls inside it, is no measure of the pore size or of the resolution",
                     ax.axis
                 ));
             }
