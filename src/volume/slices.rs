@@ -8,7 +8,10 @@ use std::path::{Path, PathBuf};
 use tiff::decoder::DecodingResult;
 
 use super::limits::{ReadLimits, bytes_for};
-use super::tiff_read::{decode_page, file_voxel_size, open, page_info, page_limits};
+use super::tiff_read::{
+    check_claim, decode_page, file_voxel_size, open, page_compressed, page_info, page_limits,
+    stored_bytes,
+};
 use super::{Volume, VoxelData, one_line};
 use crate::{Error, Result};
 
@@ -73,10 +76,16 @@ pub fn read_slice_folder(folder: &Path, limits: &ReadLimits) -> Result<Volume> {
         first.kind,
         files.len()
     );
-    limits.check(what, bytes_for(shape, first.kind.bytes()))?;
     for path in &files {
         let mut dec = open(path)?;
         let info = page_info(&mut dec, path, 0)?;
+        check_claim(
+            path,
+            &format!("a {} page", info.describe()),
+            info.bytes(),
+            stored_bytes(path),
+            page_compressed(&mut dec),
+        )?;
         if info != first {
             return Err(Error::bad_input(
                 path,
@@ -95,6 +104,8 @@ pub fn read_slice_folder(folder: &Path, limits: &ReadLimits) -> Result<Volume> {
             ));
         }
     }
+
+    limits.check(what, bytes_for(shape, first.kind.bytes()))?;
 
     // Pass 2: decode. The limit check bounds the total, so the products fit in usize.
     let mut data = VoxelData::with_capacity(first.kind, shape[0] * shape[1] * shape[2]);

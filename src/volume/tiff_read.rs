@@ -50,6 +50,57 @@ impl PageInfo {
 /// hostile header can make us read per page.
 const MAX_TAG_BYTES: usize = 8 << 20;
 
+/// Most decoded bytes one stored byte can give under any compression the reader accepts, to
+/// bound what a header may claim before anything is allocated. LZW codes have at least 9 bits
+/// and stand for at most 4096 bytes (a string table of 4096 entries: TIFF 6.0, section 13), so
+/// at most 4096 × 8/9 ≈ 3641 bytes per stored byte; Deflate gives at most 1032 (zlib's own
+/// documentation of its limits); PackBits at most 64 (a 2-byte run of 128: TIFF 6.0,
+/// section 9). All three from memory; 4096 bounds them.
+const MAX_EXPANSION: u64 = 4096;
+
+/// Whether the current page is stored compressed (a Compression tag other than 1, none).
+pub(crate) fn page_compressed(dec: &mut TiffDecoder) -> bool {
+    dec.find_tag_unsigned::<u16>(Tag::Compression)
+        .ok()
+        .flatten()
+        .is_some_and(|c| c != 1)
+}
+
+/// Refuses pages whose claimed decoded size (`claimed` bytes; None: beyond 64 bits) the
+/// `stored` bytes of the file cannot hold, uncompressed or at the largest expansion of any
+/// codec: a corrupt or hostile header, which must fail as bad input before the size is held
+/// against the memory limit (raising the limit would only reach the allocation).
+pub(crate) fn check_claim(
+    path: &Path,
+    pages: &str,
+    claimed: Option<u64>,
+    stored: u64,
+    compressed: bool,
+) -> Result<()> {
+    let ratio = if compressed { MAX_EXPANSION } else { 1 };
+    let room = stored.saturating_mul(ratio);
+    match claimed {
+        Some(c) if c <= room => Ok(()),
+        _ => Err(Error::bad_input(
+            path,
+            format!(
+                "header claims {pages} ({} of samples), more than the file's {stored} bytes can hold{}: the file is corrupt or cut short",
+                claimed.map_or("over 16 EiB".into(), crate::error::human_bytes),
+                if compressed {
+                    " at any compression"
+                } else {
+                    " (uncompressed)"
+                }
+            ),
+        )),
+    }
+}
+
+/// Length of the file at `path` in bytes (0 if it cannot be read; the decoder has opened it).
+pub(crate) fn stored_bytes(path: &Path) -> u64 {
+    std::fs::metadata(path).map_or(0, |m| m.len())
+}
+
 /// "page 4 (z = 3)": one-based like image viewers, with the zero-based z voxperm uses.
 pub(crate) fn page_label(z: usize) -> String {
     format!("page {} (z = {z})", z + 1)
@@ -62,10 +113,12 @@ pub fn read_tiff_stack(path: &Path, limits: &ReadLimits) -> Result<Volume> {
     let first = page_info(&mut dec, path, 0)?;
     let voxel_size = file_voxel_size(&mut dec, path);
     let mut pages = 1usize;
+    let mut compressed = page_compressed(&mut dec);
     while dec.more_images() {
         dec.next_image()
             .map_err(|e| tiff_error(path, Some(pages), e))?;
         let info = page_info(&mut dec, path, pages)?;
+        compressed |= page_compressed(&mut dec);
         if info != first {
             return Err(Error::bad_input(
                 path,
@@ -87,7 +140,15 @@ pub fn read_tiff_stack(path: &Path, limits: &ReadLimits) -> Result<Volume> {
         first.height,
         first.kind
     );
-    limits.check(what, bytes_for(shape, first.kind.bytes()))?;
+    let claimed = bytes_for(shape, first.kind.bytes());
+    check_claim(
+        path,
+        &format!("{pages} page(s) of {}", first.describe()),
+        claimed,
+        stored_bytes(path),
+        compressed,
+    )?;
+    limits.check(what, claimed)?;
 
     // Pass 2: decode. The check above bounds the total, so the products fit in usize.
     let page_voxels = shape[0] * shape[1];
