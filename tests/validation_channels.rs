@@ -66,3 +66,34 @@ fn square_duct_matches_series_solution() {
         r.tortuosity
     );
 }
+
+/// A dead-end crack one voxel thick across the flow, off the side of a duct. Every link with
+/// an x component of its nodes beyond the first layer ends in a wall, so the fluid there cannot
+/// move along x: its x-momentum only bounces back, a two-step oscillation whose mean is zero
+/// (`Domain::sealed_along`). k must be that of the duct with only the crack's first layer
+/// (which does exchange x-momentum with the duct, through the diagonal links).
+#[test]
+fn a_dead_end_crack_across_the_flow_carries_no_flow() {
+    let s = 8usize;
+    let crack = |depth: usize| {
+        voxperm::geometry::PoreMask::from_fn([8, s + 4, s + 1], move |x, y, z| {
+            let duct = y < s && z < s;
+            let in_crack = x == 3 && (s..s + depth).contains(&y) && z < s;
+            duct || in_crack
+        })
+    };
+    let sealed = solve_periodic(&crack(3), Axis::X);
+    let first_layer = solve_periodic(&crack(1), Axis::X);
+    let diff = rel(sealed.permeability, first_layer.permeability);
+    println!(
+        "duct with a dead-end crack: k = {:.7} (3 layers) vs {:.7} (1 layer): {diff:.2e}",
+        sealed.permeability, first_layer.permeability
+    );
+    assert!(diff < 1e-6, "the walled-in crack moved k by {diff:.2e}");
+    assert!(
+        rel(sealed.tortuosity, first_layer.tortuosity) < 1e-6,
+        "tortuosity {} vs {}",
+        sealed.tortuosity,
+        first_layer.tortuosity
+    );
+}

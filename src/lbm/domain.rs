@@ -212,6 +212,20 @@ impl Domain {
         let m = self.node_of_voxel[p[0] + self.shape[0] * (p[1] + self.shape[1] * p[2])];
         (m != SOLID).then_some(m)
     }
+
+    /// True when every link of fluid node `node` with a non-zero component along axis `a` ends
+    /// in a wall (a pore voxel one voxel thick across `a`, walled on both sides: a crack or
+    /// sheet). Its momentum along `a` then only bounces back, j ← −(j + F_a) each step, an
+    /// undamped two-step oscillation about the mean −F_a/2, so its mean velocity along `a`
+    /// (Guo et al. 2002, eq. 20: u = (j + F/2)/ρ) is exactly zero but a snapshot taken every
+    /// second step sees one phase of it.
+    pub fn sealed_along(&self, node: usize, a: usize) -> bool {
+        let c = self.coords[node];
+        super::d3q19::C
+            .iter()
+            .filter(|ci| ci[a] != 0)
+            .all(|ci| self.neighbour(c, *ci).is_none())
+    }
 }
 
 #[cfg(test)]

@@ -7,6 +7,7 @@ use super::kernel::{KernelParams, Lattice};
 use super::warm::{CoarseFlow, initial_lattice};
 use crate::geometry::Axis;
 use crate::{Error, Result};
+use rayon::prelude::*;
 use std::time::Instant;
 
 /// Collision operator.
@@ -452,7 +453,18 @@ pub fn solve_from(
     progress.on_finish();
     // The loop always stops after a completed step pair (window and cap are even).
     let steps = lattice.steps;
-    let (density, velocity) = lattice.into_macroscopic(&params);
+    let (density, mut velocity) = lattice.into_macroscopic(&params);
+    // A node walled in across an axis oscillates along it with period two steps, and the
+    // field above is one phase of that (Domain::sealed_along): its mean there is zero.
+    // Before this a three-layer dead-end crack off an 8 × 8 duct raised k by 0.11 %
+    // (tests/validation_channels.rs).
+    velocity.par_iter_mut().enumerate().for_each(|(k, u)| {
+        for (a, ua) in u.iter_mut().enumerate() {
+            if domain.sealed_along(k, a) {
+                *ua = 0.0;
+            }
+        }
+    });
     if history.is_empty() {
         // Stopped before the first check (a step cap below the window): take the peak speed
         // from the final field so the Mach number is still reported.
