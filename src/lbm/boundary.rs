@@ -30,6 +30,10 @@ pub enum Ends {
     Buffer(usize),
 }
 
+/// Widest buffer `--ends buffer:N` takes: two of them fill the 65536 voxels a solver axis
+/// holds (grid coordinates are u16).
+pub const MAX_BUFFER: usize = 32768;
+
 /// The boundary treatment of one solve.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct BoundaryMode {
@@ -72,9 +76,9 @@ impl std::str::FromStr for Ends {
             "periodic" => Ok(Ends::Periodic),
             _ => match s.strip_prefix("buffer:") {
                 Some(n) => match n.parse::<usize>() {
-                    Ok(n) if n >= 1 => Ok(Ends::Buffer(n)),
+                    Ok(n) if (1..=MAX_BUFFER).contains(&n) => Ok(Ends::Buffer(n)),
                     _ => Err(format!(
-                        "bad buffer width in '{s}' (expected buffer:N with N a whole number >= 1)"
+                        "bad buffer width in '{s}' (expected buffer:N with N a whole number from 1 to {MAX_BUFFER}: the solver grid holds at most 65536 voxels along an axis)"
                     )),
                 },
                 None => Err(format!(
@@ -115,6 +119,12 @@ mod tests {
         }
         assert!("buffer:0".parse::<Ends>().is_err());
         assert!("buffer:x".parse::<Ends>().is_err());
+        // Wider than a solver axis (and, for 2^63 + 1, wider than 2N fits in 64 bits).
+        assert_eq!("buffer:32768".parse::<Ends>(), Ok(Ends::Buffer(MAX_BUFFER)));
+        for wide in ["buffer:32769", "buffer:9223372036854775809"] {
+            let e = wide.parse::<Ends>().unwrap_err();
+            assert!(e.contains("from 1 to 32768"), "{e}");
+        }
         assert!("open".parse::<Ends>().is_err());
         assert_eq!("sealed".parse::<Sides>().unwrap(), Sides::Sealed);
         assert!("walls".parse::<Sides>().is_err());

@@ -58,8 +58,10 @@ impl Domain {
         let face = (shape[(a + 1) % 3] * shape[(a + 2) % 3]) as u64;
         match mode.ends {
             Ends::Periodic => connected,
-            Ends::Mirror => 2 * connected,
-            Ends::Buffer(n) => connected + 2 * n as u64 * face,
+            Ends::Mirror => connected.saturating_mul(2),
+            Ends::Buffer(n) => {
+                connected.saturating_add((n as u64).saturating_mul(2).saturating_mul(face))
+            }
         }
     }
 
@@ -69,8 +71,9 @@ impl Domain {
         let a = axis.index();
         s[a] = match mode.ends {
             Ends::Periodic => shape[a],
-            Ends::Mirror => 2 * shape[a],
-            Ends::Buffer(n) => shape[a] + 2 * n,
+            // Saturating: a size beyond usize is refused as too long, not wrapped round.
+            Ends::Mirror => shape[a].saturating_mul(2),
+            Ends::Buffer(n) => shape[a].saturating_add(n.saturating_mul(2)),
         };
         s
     }
@@ -273,6 +276,20 @@ mod tests {
         assert_eq!(d.shape, [2, 1, 7]);
         assert_eq!(d.fluid_nodes(), 2 + 2 * 2 * 2);
         assert_eq!(d.sample_origin, [0, 0, 2]);
+    }
+
+    /// A buffer that a library caller makes wider than any grid (2N beyond 64 bits) is
+    /// refused as too long, not wrapped round to a small grid.
+    #[test]
+    fn refuses_a_buffer_wider_than_an_axis() {
+        for n in [40_000, (usize::MAX >> 1) + 1, usize::MAX] {
+            let mode = BoundaryMode {
+                sides: Sides::Periodic,
+                ends: Ends::Buffer(n),
+            };
+            let err = Domain::build(&column(), Axis::Z, mode, u64::MAX).unwrap_err();
+            assert!(err.to_string().contains("exceeds 65536"), "{n}: {err}");
+        }
     }
 
     #[test]
