@@ -1039,6 +1039,39 @@ fn bgk_runs_say_their_permeability_depends_on_tau() {
     }
 }
 
+/// A tensor solved with sealed sides carries a warning that its off-diagonal terms come from
+/// the walls (no net flow can cross the forced axis); with periodic sides it does not.
+#[test]
+fn a_tensor_with_sealed_sides_says_its_off_diagonals_are_set_by_the_walls() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
+    for (sides, expected) in [("sealed", true), ("periodic", false)] {
+        let j = dir.path().join(format!("{sides}.json"));
+        let (code, _, stderr) = run(&[
+            "estimate",
+            sample.to_str().unwrap(),
+            "--axis",
+            "all",
+            "--sides",
+            sides,
+            "--ends",
+            "periodic",
+            "-q",
+            "--json",
+            j.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{stderr}");
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+        let warned = v["warnings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|w| w.as_str().unwrap().contains("set by the sealed sides"));
+        assert_eq!(warned, expected, "{sides}: {}", v["warnings"]);
+    }
+}
+
 /// The summary and the result file say how a raw file was read and which crop was analysed,
 /// so a result can be traced to its input (a forgotten --raw-endian inverts a u16 image).
 #[test]

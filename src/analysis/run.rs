@@ -333,6 +333,11 @@ fn solve_warnings(
             ));
         }
     }
+    if est.tensor.is_some() && mode.sides == crate::lbm::Sides::Sealed {
+        // ∫u_j dV = ∮ x_j u·n dS for a divergence-free u: with no flow through the side walls
+        // (and equal inlet and outlet faces) no net flow crosses the forced axis.
+        warnings.push("the tensor's off-diagonal terms are set by the sealed sides, not by the material: walls along the flow let no net flow cross it, so they come out near zero (periodic ends) or as a boundary artefact (mirror or buffer ends), and the principal directions are the grid axes; for the full tensor use --sides periodic, on a sample many pores wide".into());
+    }
     if dh < MIN_PORE_DIAMETER_VOXELS {
         warnings.push(format!(
             "pores are resolved by only about {dh:.1} voxels (hydraulic diameter 4φ/S); expect a resolution error of several %: image at a finer voxel size, or compare with the sample resampled coarser to see the trend"

@@ -7,8 +7,9 @@
 pub struct TensorAnalysis {
     /// The tensor as computed, row-major.
     pub tensor: [[f64; 3]; 3],
-    /// (k + kᵀ)/2. Onsager reciprocity makes the exact Stokes permeability symmetric, so the
-    /// antisymmetric part measures numerical error.
+    /// (k + kᵀ)/2. Onsager reciprocity makes the exact Stokes permeability of a periodic
+    /// medium symmetric, so with periodic sides the antisymmetric part measures numerical
+    /// error; with sealed sides the off-diagonal terms are set by the walls (a warning says so).
     pub symmetric: [[f64; 3]; 3],
     /// Largest |k_ij − k_ji| relative to the largest diagonal entry.
     pub asymmetry: f64,
