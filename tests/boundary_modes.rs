@@ -45,7 +45,7 @@ fn sealed_sides_turn_an_open_block_into_the_square_duct() {
 /// A slit with buffers of free fluid at both ends: with the pressure drop measured across the
 /// sample, k is the slit's (White, Viscous Fluid Flow, plane Poiseuille flow) up to the entrance and exit losses at
 /// the buffer–slit junctions. Those are a fixed extra resistance, so the error must fall like
-/// 1/length: measured 5.5 % at 32 voxels and about a third of that at 96.
+/// 1/length: measured 7.8 % at 32 voxels and 2.8 % at 96 (error × length 250 and 265).
 #[test]
 fn buffer_ends_recover_the_slit_value() {
     let gap = 8usize;
@@ -58,15 +58,16 @@ fn buffer_ends_recover_the_slit_value() {
         let mask = PoreMask::from_fn([len, gap + 1, 2], |_, y, _| y < gap);
         let r = solve_mask(&mask, Axis::X, mode, &tight());
         // The free-fluid buffers (8 slices) need a pressure gradient ≈ g to hold the body force
-        // back, which the sample sees as extra drive: g_eff ≈ g (1 + 8/len). The correction must
-        // be doing that work.
+        // back, which the sample sees as extra drive: g_eff ≈ g (1 + 8/len), measured to
+        // 0.1 % once the drop is taken between the sample's faces (it was 7/len when taken
+        // between the buffer slices next to them, half a voxel outside each face).
         let extra = r.effective_force / r.body_force - 1.0;
         println!(
             "  g_eff/g - 1 = {extra:.4} (buffer/sample length {:.4})",
             8.0 / len as f64
         );
         assert!(
-            (extra / (8.0 / len as f64) - 1.0).abs() < 0.2,
+            (extra / (8.0 / len as f64) - 1.0).abs() < 0.01,
             "g_eff/g - 1 = {extra}"
         );
         let err = rel(r.permeability, want);
@@ -78,10 +79,12 @@ fn buffer_ends_recover_the_slit_value() {
     };
     let short = err_at(32);
     let long = err_at(96);
-    assert!(long < 0.025, "error {long} at length 96");
+    assert!(long < 0.03, "error {long} at length 96");
+    // A fixed extra resistance: error × length the same at both lengths, within 10 %.
+    let (a, b) = (short * 32.0, long * 96.0);
     assert!(
-        long < 0.5 * short,
-        "entrance-loss error should fall with length: {short} -> {long}"
+        (a / b - 1.0).abs() < 0.1,
+        "entrance-loss error should fall as 1/length: {short} at 32, {long} at 96"
     );
 }
 

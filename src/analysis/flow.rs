@@ -32,7 +32,7 @@ pub struct AxisFlow {
 /// Darcy's law with a body force g: ⟨u⟩ = (k/μ)(ρg − ∇p) and ρ ≈ 1, so k = ν⟨u⟩/g_eff with
 /// g_eff = g − Δp/L (DESIGN.md §2; e.g. Pan, Luo & Miller 2006, Computers & Fluids 35, 898).
 /// In periodic and mirrored domains the mean pressure gradient vanishes; with buffer ends it is
-/// measured between the two buffer slices next to the sample.
+/// the drop between the sample's two faces.
 pub fn analyse(domain: &Domain, field: &FlowField, axis: Axis) -> AxisFlow {
     let a = axis.index();
     let sample_voxels = domain.sample_shape.iter().product::<usize>() as f64;
@@ -57,11 +57,18 @@ pub fn analyse(domain: &Domain, field: &FlowField, axis: Axis) -> AxisFlow {
     let g = field.force[a];
     let effective_force = match domain.mode.ends {
         Ends::Buffer(_) => {
-            let before = domain.sample_origin[a] - 1;
-            let after = domain.sample_origin[a] + domain.sample_shape[a];
-            let p_in = slice_pressure(domain, field, a, before);
-            let p_out = slice_pressure(domain, field, a, after);
-            g - (p_out - p_in) / (after - before - 1) as f64
+            // The pressure at the two faces of the sample, which lie half a voxel beyond the
+            // centres of the buffer slices next to them: each is extrapolated along the
+            // buffer's own gradient, measured between that slice and the next buffer slice
+            // out (across the periodic wrap, where the two buffers meet). Then the drop
+            // spans exactly the sample's length.
+            let n = domain.shape[a];
+            let (origin, length) = (domain.sample_origin[a], domain.sample_shape[a]);
+            let p = |at: usize| slice_pressure(domain, field, a, at % n);
+            let (inlet, outlet) = (origin - 1, origin + length);
+            let p_in = p(inlet) + 0.5 * (p(inlet) - p(inlet + n - 1));
+            let p_out = p(outlet) - 0.5 * (p(outlet + 1) - p(outlet));
+            g - (p_out - p_in) / length as f64
         }
         _ => g,
     };
