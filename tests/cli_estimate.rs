@@ -450,6 +450,30 @@ fn describe_reports_geometry_without_solving() {
     assert!(v["axes"].is_array());
 }
 
+/// -q leaves out the summary, not the warnings: an unconverged solve still says so on stderr.
+#[test]
+fn quiet_estimate_keeps_its_warnings_on_stderr() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(12, 4.5));
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        sample.to_str().unwrap(),
+        "--periodic",
+        "--cold-start",
+        "--max-steps",
+        "20",
+        "--check-every",
+        "10",
+        "-q",
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(stdout.is_empty(), "{stdout}");
+    assert!(
+        stderr.contains("voxperm: warning: axis x: did not converge"),
+        "{stderr}"
+    );
+}
+
 /// A sample too short along the flow, and a voxel size far outside imaging practice, give an
 /// answer with a warning each, in the summary and in the result file.
 #[test]

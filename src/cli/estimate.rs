@@ -37,7 +37,7 @@ pub struct EstimateArgs {
     /// Keep every N-th voxel along each axis in the VTK file (for large volumes).
     #[arg(long, default_value_t = 1, value_name = "N")]
     pub vtk_stride: usize,
-    /// Print nothing but errors (no summary, no progress).
+    /// Print nothing but errors and warnings (no summary, no progress), as describe -q.
     #[arg(long, short)]
     pub quiet: bool,
 }
@@ -85,12 +85,12 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
     if let Some(p) = &a.json {
         result.write(p)?;
     }
-    if !a.quiet {
-        if json_on_stdout {
-            result.report.warnings.iter().for_each(super::args::warn);
-        } else {
-            super::args::print_out(&summary::render(&result.report))?;
-        }
+    // Without the summary (quiet, or the JSON on standard output) its warnings still reach
+    // the user, on standard error: a script must not miss an unconverged solve.
+    if a.quiet || json_on_stdout {
+        result.report.warnings.iter().for_each(super::args::warn);
+    } else {
+        super::args::print_out(&summary::render(&result.report))?;
     }
     Ok(voxperm::error::exit::OK)
 }
