@@ -156,6 +156,11 @@ impl InputArgs {
                     "--pore-label and --threshold exclude each other: choose labels or a threshold"
                         .into(),
                 )),
+                (Some(t), _) if !t.is_finite() => {
+                    return Err(Error::Usage(format!(
+                        "--threshold must be a finite number, got {t}"
+                    )));
+                }
                 (Some(t), Some(side)) => Segmentation::Threshold {
                     t,
                     pore_below: match side.as_str() {
