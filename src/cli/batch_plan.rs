@@ -278,10 +278,46 @@ pub fn from_manifest(
         };
         let mut st = outer.clone();
         entry.apply(&mut st).map_err(|e| who(&e, &name))?;
-        planned.push(st.plan(name.clone(), path).map_err(|e| who(&e, &name))?);
+        planned.push(
+            st.plan(name.clone(), path)
+                .map_err(|e| who(&as_manifest_keys(&e.to_string()), &name))?,
+        );
     }
     check_names(&planned, manifest, true)?;
     Ok(planned)
+}
+
+/// A message about the sample options, in the manifest's words: `--pore belw` becomes
+/// `pore (--pore) belw`, since the value may come from the manifest key or the command line.
+fn as_manifest_keys(msg: &str) -> String {
+    const OPTIONS: [&str; 8] = [
+        "pore-label",
+        "threshold",
+        "pore",
+        "voxel-size",
+        "crop",
+        "raw-shape",
+        "raw-type",
+        "raw-endian",
+    ];
+    let mut out = String::new();
+    let mut rest = msg;
+    while let Some(at) = rest.find("--") {
+        out.push_str(&rest[..at]);
+        let after = &rest[at + 2..];
+        let len = after
+            .find(|c: char| !(c.is_ascii_lowercase() || c == '-'))
+            .unwrap_or(after.len());
+        let opt = &after[..len];
+        if OPTIONS.contains(&opt) {
+            out.push_str(&format!("{} (--{opt})", opt.replace('-', "_")));
+        } else {
+            out.push_str(&rest[at..at + 2 + len]);
+        }
+        rest = &after[len..];
+    }
+    out.push_str(rest);
+    out
 }
 
 /// Every TIFF stack, slice folder and (with `--raw-shape`) raw file directly in `folder`, in
@@ -399,4 +435,23 @@ fn check_names(planned: &[Planned], source: &Path, manifest: bool) -> Result<()>
         }
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::as_manifest_keys;
+
+    #[test]
+    fn option_names_read_as_manifest_keys() {
+        assert_eq!(
+            as_manifest_keys("--pore belw: expected below or above"),
+            "pore (--pore) belw: expected below or above"
+        );
+        assert_eq!(
+            as_manifest_keys("--voxel-size 5: give a unit, and --pore-label 0"),
+            "voxel_size (--voxel-size) 5: give a unit, and pore_label (--pore-label) 0"
+        );
+        // Options a manifest cannot set, and a lone "--", are left alone.
+        assert_eq!(as_manifest_keys("--max-memory -- x"), "--max-memory -- x");
+    }
 }
