@@ -112,8 +112,17 @@ pub fn render(r: &EstimateReport) -> String {
             tort,
             re,
             ma,
-            a.steps,
-            if a.converged { "yes" } else { "NO" }
+            if a.percolates {
+                a.steps.to_string()
+            } else {
+                "-".into()
+            },
+            // A blocked axis was not solved: k = 0 is exact, not a converged solve.
+            match (a.percolates, a.converged) {
+                (false, _) => "no path",
+                (true, true) => "yes",
+                (true, false) => "NO",
+            }
         );
         if let Some(w) = &a.warm_start {
             let _ = writeln!(
