@@ -110,8 +110,15 @@ fn mirror_ends_give_series_slits() {
         r.permeability
     );
     assert!(err < 0.05, "{} vs {want}", r.permeability);
-    // Flow converges into the narrow slit: tortuosity above 1.
-    assert!(r.tortuosity > 1.0);
+    println!("series slits, mirror ends: tortuosity {:.6}", r.tortuosity);
+    // Flow converges into the narrow slit within about a gap of the step and is straight
+    // elsewhere: tortuosity above 1 by a fraction of a percent (measured 1.0039), which a
+    // field without the transverse flow at the step (T = 1) or a noisy one would miss.
+    assert!(
+        (1.001..1.02).contains(&r.tortuosity),
+        "tortuosity {}",
+        r.tortuosity
+    );
 }
 
 /// Walls normal to z: k_xx = k_yy = the slit value, and no path along z gives k_zz = 0 with a note

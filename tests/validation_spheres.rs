@@ -85,7 +85,8 @@ fn trt_permeability_is_independent_of_tau_and_bgk_drifts() {
         println!("tau {t}: TRT k = {:.6}  BGK k = {:.6}", trt[i], bgk[i]);
     }
     println!("spread TRT {:.3e}  BGK {:.3e}", spread(&trt), spread(&bgk));
-    assert!(spread(&trt) < 0.01, "TRT spread {}", spread(&trt));
+    // Measured 1.4e-5 (README table); 1e-4 leaves room for the steady-state tolerance.
+    assert!(spread(&trt) < 1e-4, "TRT spread {}", spread(&trt));
     assert!(
         spread(&bgk) > 5.0 * spread(&trt),
         "BGK should drift with tau"
