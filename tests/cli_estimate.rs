@@ -147,7 +147,7 @@ fn bad_inputs_fail_with_one_clear_line_and_no_output() {
     let good = write_mask(d, "good.tif", &sphere_cell(8, 3.0));
     let g = good.to_str().unwrap();
 
-    // Missing file (exit 3, DESIGN.md exit codes).
+    // Missing file (exit 3, README exit codes).
     assert_fails(
         &["estimate", "/nonexistent/x.tif", "--json", j],
         3,

@@ -127,7 +127,7 @@ fn mean_density(k: &KeptField) -> f64 {
 
 /// Every cell against the solver field: sample voxel (i·s, j·s, k·s) shifted by the sample's
 /// origin in the solver grid; solid voxels zero with pore 0. Pressure is c_s²(ρ − ρ̄)/(ν U) with
-/// c_s² = 1/3 (D3Q19, DESIGN.md §2) and U the Darcy velocity.
+/// c_s² = 1/3 (D3Q19: Qian, d'Humières & Lallemand 1992, Europhys. Lett. 17, 479, from memory) and U the Darcy velocity.
 fn assert_cells_match_field(r: &Read, k: &KeptField, stride: usize) {
     let d = &k.domain;
     let u_d = darcy_velocity(k);

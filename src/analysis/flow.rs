@@ -30,7 +30,7 @@ pub struct AxisFlow {
 /// Computes the Darcy quantities of a steady flow.
 ///
 /// Darcy's law with a body force g: ⟨u⟩ = (k/μ)(ρg − ∇p) and ρ ≈ 1, so k = ν⟨u⟩/g_eff with
-/// g_eff = g − Δp/L (DESIGN.md §2; e.g. Pan, Luo & Miller 2006, Computers & Fluids 35, 898).
+/// g_eff = g − Δp/L (e.g. Pan, Luo & Miller 2006, Computers & Fluids 35, 898).
 /// In periodic and mirrored domains the mean pressure gradient vanishes; with buffer ends it is
 /// the drop between the sample's two faces.
 pub fn analyse(domain: &Domain, field: &FlowField, axis: Axis) -> AxisFlow {

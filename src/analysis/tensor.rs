@@ -2,7 +2,8 @@
 //! anisotropy ratio.
 
 /// Permeability tensor analysis. `k[i][j]` = ν⟨u_i⟩/g_j: column j comes from the solve forced
-/// along axis j (DESIGN.md §2).
+/// along axis j (Darcy's law in tensor form: Bear 1972, Dynamics of Fluids in Porous
+/// Media, chapter 5, from memory).
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct TensorAnalysis {
     /// The tensor as computed, row-major.

@@ -11,11 +11,11 @@
 //! a permeability run fixes neither: Stokes flow is linear in the drive, so only the *shape* of the
 //! field is a property of the sample. The file therefore holds the field scaled by the run's own
 //! Darcy (superficial) velocity U along the flow axis (Σ u_axis over the sample / sample voxels,
-//! the ⟨u⟩ of k = ν⟨u⟩/g, DESIGN.md §2):
+//! the ⟨u⟩ of k = ν⟨u⟩/g, see analysis/flow.rs):
 //! - `velocity` = u / U (dimensionless; its flow-axis component averages to 1 over all cells at
 //!   stride 1). Multiply by a Darcy velocity in m/s (flow rate / cross-section) to get m/s.
 //! - `pressure` = (p − p̄) Δx / (μ U) with p = c_s² ρ (c_s² = 1/3, the D3Q19 equation of state:
-//!   DESIGN.md §2; Qian, d'Humières & Lallemand 1992, Europhys. Lett. 17, 479, from memory) and
+//!   Qian, d'Humières & Lallemand 1992, Europhys. Lett. 17, 479, from memory) and
 //!   p̄ the mean over the sample's fluid nodes; in lattice units (Δx = 1, μ = ν at ρ₀ = 1) that
 //!   is c_s²(ρ − ρ̄)/(ν U). Multiply by μ U / Δx to get Pa. It is the deviation from the mean
 //!   only: the uniform gradient the body force stands for is not in it.
