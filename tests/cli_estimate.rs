@@ -693,6 +693,43 @@ fn a_raw_file_read_with_the_wrong_type_is_flagged() {
     assert!(!stderr.contains("file order"), "{stderr}");
 }
 
+/// A 0/1 image read with the default pore label 0 gets a warning giving the other reading's
+/// porosity; a label the user chose, or a 0/255 image, does not.
+#[test]
+fn a_zero_one_image_under_the_default_label_is_flagged() {
+    let dir = tempfile::tempdir().unwrap();
+    let cell = sphere_cell(10, 3.5);
+    let write = |name: &str, pore: u8, solid: u8| {
+        let data = cell
+            .as_slice()
+            .iter()
+            .map(|&p| if p { pore } else { solid })
+            .collect();
+        let vol = Volume::new([10, 10, 10], voxperm::volume::VoxelData::U8(data)).unwrap();
+        let p = dir.path().join(name);
+        write_tiff_stack(&p, &vol, TiffCompression::None, None).unwrap();
+        p
+    };
+    let zero_one = write("mask01.tif", 0, 1);
+    let zero_255 = write("mask255.tif", 0, 255);
+    let sign = "the image holds only the values 0 and 1, and pore is 0 by default";
+    let phi = cell.porosity();
+    let stderr_of = |args: &[&str]| {
+        let (code, stdout, stderr) = run(args);
+        assert_eq!(code, 0, "{stdout}\n{stderr}");
+        stderr
+    };
+    let p01 = zero_one.to_str().unwrap();
+    let warned = stderr_of(&["describe", p01, "-q"]);
+    assert!(warned.contains(sign), "{warned}");
+    assert!(
+        warned.contains(&format!("porosity {:.3} instead of {phi:.3}", 1.0 - phi)),
+        "{warned}"
+    );
+    assert!(!stderr_of(&["describe", p01, "-q", "--pore-label", "0"]).contains(sign));
+    assert!(!stderr_of(&["describe", zero_255.to_str().unwrap(), "-q"]).contains(sign));
+}
+
 /// describe reports an all-pore (or pore-free) volume's geometry and says that estimate will
 /// refuse it.
 #[test]

@@ -412,6 +412,7 @@ fn voxel_size_from_description_unit_and_spacing() {
         segmentation: voxperm::volume::Segmentation::Labels(vec![1]),
         crop: None,
         voxel_size_m: None,
+        default_segmentation: false,
     };
     // A --voxel-size (here the file's own x size) does not make the voxels cubic: still warned.
     for given in [None, Some(5e-6)] {

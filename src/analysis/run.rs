@@ -257,7 +257,7 @@ fn geometry_record(porosity: f64, s: &Surface, voxel_m: Option<f64>) -> Geometry
 /// (and so `batch`) and `describe`.
 pub fn sample_warnings(sample: &Sample, path: &std::path::Path) -> Vec<String> {
     let mut warnings = Vec::new();
-    if let Some(doubt) = &sample.type_doubt {
+    for doubt in &sample.doubts {
         warnings.push(format!("{}: {doubt}", path.display()));
     }
     if let (Some(file), Some(used)) = (&sample.overridden_voxel_size, &sample.voxel_size) {

@@ -137,6 +137,8 @@ pub struct InputPlan {
     pub crop: Option<CropSpec>,
     pub voxel_size_m: Option<f64>,
     pub max_memory: u64,
+    /// No --pore-label or --threshold was given: pore is label 0 by default.
+    pub default_segmentation: bool,
 }
 
 impl InputArgs {
@@ -198,6 +200,7 @@ impl InputArgs {
             crop,
             voxel_size_m,
             max_memory,
+            default_segmentation: self.pore_label.is_empty() && self.threshold.is_none(),
         })
     }
 }

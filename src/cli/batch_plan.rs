@@ -189,6 +189,7 @@ impl Layered {
                 segmentation: p.segmentation,
                 crop: p.crop,
                 voxel_size_m: p.voxel_size_m,
+                default_segmentation: p.default_segmentation,
             },
             axes: parse_axes(&self.axis)?,
             mode: self.mode,

@@ -56,6 +56,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         segmentation: plan.segmentation.clone(),
         crop: plan.crop.clone(),
         voxel_size_m: plan.voxel_size_m,
+        default_segmentation: plan.default_segmentation,
     };
     let sample = load_sample(&spec, &ReadLimits::new(plan.max_memory))?;
     let mask = &sample.mask;

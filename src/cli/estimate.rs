@@ -78,6 +78,7 @@ pub fn run(a: EstimateArgs) -> Result<i32> {
         segmentation: plan.segmentation,
         crop: plan.crop,
         voxel_size_m: plan.voxel_size_m,
+        default_segmentation: plan.default_segmentation,
     };
     let mut bar = Bar::new(a.quiet);
     let result = run_sample(&spec, &cfg, &mut bar)?;

@@ -20,6 +20,9 @@ pub struct SampleSpec {
     pub crop: Option<CropSpec>,
     /// Voxel edge given by the user, metres; overrides what the file says.
     pub voxel_size_m: Option<f64>,
+    /// The segmentation is the default (pore label 0), not one the user chose: an image of
+    /// only 0 and 1, where 1 often marks the pore, then gets a warning.
+    pub default_segmentation: bool,
 }
 
 /// A loaded, segmented sample.
@@ -38,9 +41,10 @@ pub struct Sample {
     pub file_voxel_size: Option<VoxelSize>,
     /// Sample type of the voxels ("u8", "u16", "f32").
     pub sample_type: String,
-    /// For a raw file, a sign in its values that the given sample type is wrong
-    /// ([`wrong_type_sign`](super::raw::wrong_type_sign)).
-    pub type_doubt: Option<String>,
+    /// Doubts about how the file was read, from its values: a raw file's sample type
+    /// ([`wrong_type_sign`](super::raw::wrong_type_sign)), the default pore label on a 0/1
+    /// image. Each one sentence, for a warning.
+    pub doubts: Vec<String>,
 }
 
 /// Reads, crops and segments a sample. The voxel values are dropped once the mask exists.
@@ -48,10 +52,13 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
     let mut vol = load(&spec.path, spec.raw.as_ref(), limits)?;
     let file_shape = vol.shape;
     // Over the whole file, before a crop: the signs are in the file order of the values.
-    let type_doubt = spec
+    let mut doubts: Vec<String> = spec
         .raw
         .as_ref()
-        .and_then(|_| super::raw::wrong_type_sign(&vol.data));
+        .and_then(|_| super::raw::wrong_type_sign(&vol.data))
+        .into_iter()
+        .collect();
+    let zero_one = spec.default_segmentation && only_zero_and_one(&vol.data);
     let mut crop_origin = [0; 3];
     let mut cropped = None;
     if let Some(c) = &spec.crop {
@@ -73,6 +80,13 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         Error::Usage(msg) | Error::BadVolume(msg) => Error::bad_input(&spec.path, msg),
         other => other,
     })?;
+    if zero_one {
+        let phi = mask.porosity();
+        doubts.push(format!(
+            "the image holds only the values 0 and 1, and pore is 0 by default; many tools mark the phase of interest with 1: if 1 is the pore, give --pore-label 1 (porosity {:.3} instead of {phi:.3})",
+            1.0 - phi
+        ));
+    }
     Ok(Sample {
         mask,
         voxel_size: vol.voxel_size.clone(),
@@ -81,8 +95,20 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         overridden_voxel_size,
         file_voxel_size,
         sample_type: vol.data.kind().to_string(),
-        type_doubt,
+        doubts,
     })
+}
+
+/// True when the values are exactly 0 and 1, both present (a binary mask saved as 0/1).
+fn only_zero_and_one(data: &super::VoxelData) -> bool {
+    fn check<T: Copy + PartialEq>(v: &[T], zero: T, one: T) -> bool {
+        v.iter().all(|&x| x == zero || x == one) && v.contains(&zero) && v.contains(&one)
+    }
+    match data {
+        super::VoxelData::U8(v) => check(v, 0, 1),
+        super::VoxelData::U16(v) => check(v, 0, 1),
+        super::VoxelData::F32(v) => check(v, 0.0, 1.0),
+    }
 }
 
 /// SHA-256 of the input: the file's bytes, or for a slice folder the sorted slice names and
