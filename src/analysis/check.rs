@@ -242,7 +242,7 @@ impl Geometry {
                 let open = k / s.porosity;
                 Ok(Measured {
                     value: open / (nf * nf),
-                    reference: refs::slit_nodal_per_open_area(nf) / (nf * nf),
+                    reference: refs::PLANE_POISEUILLE_PER_OPEN_AREA,
                     geometry: format!("N = {n}"),
                     steps,
                 })
@@ -540,12 +540,13 @@ pub fn cases() -> Vec<Case> {
             "k/N² per open area",
             refs::PLANE_POISEUILLE,
             "nodes across",
-            "TRT with Λ = 3/16 is exact for plane Poiseuille flow; the tolerance covers f32 \
-             round-off and the steady-state tolerance",
+            "TRT with Λ = 3/16 gives the exact parabola at the nodes, but their mean (the \
+             flux) exceeds h²/12 by 1/(2N²), the midpoint rule's error on a parabola: +3.1 % \
+             at N = 4, +0.78 % at 8, +0.20 % at 16; the tolerance is that plus 10⁻⁴",
             Geometry::Slit,
             Grids {
-                quick: (8, 1e-4),
-                full: &[(4, 1e-4), (8, 1e-4), (16, 1e-4)],
+                quick: (8, 0.0079),
+                full: &[(4, 0.0314), (8, 0.0079), (16, 0.0021)],
             },
         ),
         case(

@@ -35,21 +35,17 @@ impl Source {
 // ---- straight channels -------------------------------------------------------------------------
 
 /// Plane Poiseuille flow between walls a gap h apart: mean velocity h²G/(12μ), so k = h²/12 per
-/// open area. With half-way bounce-back h is the number N of fluid nodes across, and the mean of
-/// the exact parabola over the N node midpoints is N²/12 + 1/24 (mean of y(N − y) over
-/// y = ½, 3/2, …, N − ½).
+/// open area (White, Viscous Fluid Flow, plane Poiseuille flow). With half-way bounce-back h is
+/// the number N of fluid nodes across, and the mean of the exact parabola over the N node
+/// midpoints is N²/12 + 1/24 (mean of y(N − y) over y = ½, 3/2, …, N − ½).
 pub const PLANE_POISEUILLE: Source = Source {
     short: "plane Poiseuille (analytic)",
-    citation: "plane Poiseuille flow, k = h²/12 per open area; nodal mean N²/12 + 1/24 (midpoint \
-               sampling of the parabola)",
+    citation: "plane Poiseuille flow, k = h²/12 per open area (White, Viscous Fluid Flow)",
     from_memory: false,
 };
 
-/// k per open area of a slit with `n` fluid nodes across, sampled at the nodes (see
-/// [`PLANE_POISEUILLE`]).
-pub fn slit_nodal_per_open_area(n: f64) -> f64 {
-    n * n / 12.0 + 1.0 / 24.0
-}
+/// k/h² per open area of plane Poiseuille flow (see [`PLANE_POISEUILLE`]).
+pub const PLANE_POISEUILLE_PER_OPEN_AREA: f64 = 1.0 / 12.0;
 
 /// Square duct of side s: k = 0.0351442537 s² per open area, from the series for the
 /// rectangular duct (source below).
