@@ -352,6 +352,50 @@ fn voxel_size_from_resolution_tags_alone() {
     assert!(size.source.not_cubic(size.metres).is_none(), "{size:?}");
 }
 
+/// A hyperstack (ImageJ's `channels=` or `frames=` in the description) is refused: its pages
+/// interleave channels or time frames, which would be read as one scrambled z stack.
+#[test]
+fn hyperstacks_with_channels_or_frames_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let write = |name: &str, text: &str| {
+        let path = dir.path().join(name);
+        let mut buf = Cursor::new(Vec::new());
+        let mut enc = TiffEncoder::new(&mut buf).unwrap();
+        for z in 0..4 {
+            let mut img = enc.new_image::<Gray8>(2, 2).unwrap();
+            if z == 0 {
+                img.encoder()
+                    .write_tag(Tag::ImageDescription, text)
+                    .unwrap();
+            }
+            img.write_data(&[0u8, 1, 1, 0]).unwrap();
+        }
+        fs::write(&path, buf.into_inner()).unwrap();
+        path
+    };
+    let two = write(
+        "two.tif",
+        "ImageJ=1.54f\nimages=4\nchannels=2\nslices=2\nhyperstack=true\n",
+    );
+    assert_bad_input(
+        load(&two, None, &limits()),
+        "two.tif",
+        "2 channels (channels=2)",
+    );
+    let movie = write("movie.tif", "ImageJ=1.54f\nimages=4\nslices=2\nframes=2\n");
+    assert_bad_input(
+        load(&movie, None, &limits()),
+        "movie.tif",
+        "2 time frames (frames=2)",
+    );
+    // One channel and one frame, said explicitly, is a plain stack.
+    let plain = write(
+        "plain.tif",
+        "ImageJ=1.54f\nimages=4\nchannels=1\nslices=4\nframes=1\n",
+    );
+    assert_eq!(load(&plain, None, &limits()).unwrap().shape, [2, 2, 4]);
+}
+
 #[test]
 fn voxel_size_from_description_unit_and_spacing() {
     // The widespread key=value description convention: pixels per `unit` in XResolution with

@@ -111,6 +111,7 @@ pub fn read_tiff_stack(path: &Path, limits: &ReadLimits) -> Result<Volume> {
     // Pass 1: walk the page headers only.
     let mut dec = open(path)?;
     let first = page_info(&mut dec, path, 0)?;
+    check_not_hyperstack(&mut dec, path)?;
     let voxel_size = file_voxel_size(&mut dec, path);
     let mut pages = 1usize;
     let mut compressed = page_compressed(&mut dec);
@@ -158,6 +159,11 @@ pub fn read_tiff_stack(path: &Path, limits: &ReadLimits) -> Result<Volume> {
     for z in 0..pages {
         if z > 0 {
             dec.next_image().map_err(|e| tiff_error(path, Some(z), e))?;
+        }
+        // The file could have been replaced since pass 1 (same page count, other pages):
+        // never trust the earlier look.
+        if page_info(&mut dec, path, z)? != first {
+            return Err(Error::bad_input(path, "file changed while being read"));
         }
         decode_page(&mut dec, path, Some(z), &first, &mut buf, &mut data)?;
     }
@@ -340,6 +346,30 @@ pub(crate) fn tiff_error(path: &Path, z: Option<usize>, e: TiffError) -> Error {
     Error::bad_input(path, one_line(&msg))
 }
 
+/// Refuses a stack whose ImageDescription says its pages hold several channels or time
+/// frames (the `channels=` and `frames=` keys ImageJ writes for hyperstacks): read page by
+/// page as z slices, the channels or frames would be interleaved into one scrambled volume.
+fn check_not_hyperstack(dec: &mut TiffDecoder, path: &Path) -> Result<()> {
+    let text = dec
+        .find_tag(Tag::ImageDescription)
+        .ok()
+        .flatten()
+        .and_then(|v| v.into_string().ok())
+        .unwrap_or_default();
+    let d = Description::parse(&text);
+    let what = match (d.channels.filter(|&c| c > 1), d.frames.filter(|&f| f > 1)) {
+        (Some(c), _) => format!("{c} channels (channels={c})"),
+        (None, Some(f)) => format!("{f} time frames (frames={f})"),
+        (None, None) => return Ok(()),
+    };
+    Err(Error::bad_input(
+        path,
+        format!(
+            "the ImageDescription says the pages hold {what}, not one z stack: save one channel and one frame as its own stack"
+        ),
+    ))
+}
+
 /// Resolutions of 72 and 96 pixels per inch are what many writers store when they know
 /// nothing about the pixel size (screen defaults): common practice, so they are ignored.
 const PLACEHOLDER_DPI: [f64; 2] = [72.0, 96.0];
@@ -452,6 +482,9 @@ struct Description {
     unit_name: Option<String>,
     /// The `spacing=` value, in that unit.
     spacing: Option<f64>,
+    /// `channels=` and `frames=`: a hyperstack whose pages are not (only) z slices.
+    channels: Option<u64>,
+    frames: Option<u64>,
 }
 
 impl Description {
@@ -470,6 +503,8 @@ impl Description {
                     d.unit_name = d.unit.map(|_| name);
                 }
                 "spacing" => d.spacing = value.parse().ok().filter(|s: &f64| *s > 0.0),
+                "channels" => d.channels = value.parse().ok(),
+                "frames" => d.frames = value.parse().ok(),
                 _ => {}
             }
         }
@@ -492,6 +527,9 @@ mod tests {
         assert_eq!(d.unit, Some(1e-6));
         let d = Description::parse("unit=pixel\nspacing=-1\nnonsense");
         assert_eq!(d, Description::default());
+        let d =
+            Description::parse("ImageJ=1.54f\nimages=20\nchannels=2\nslices=10\nhyperstack=true");
+        assert_eq!((d.channels, d.frames), (Some(2), None));
     }
 
     #[test]
