@@ -267,10 +267,29 @@ pub fn label_clusters(mask: &PoreMask, periodic: [bool; 3]) -> Result<Clusters> 
     })
 }
 
-/// Unions provisional labels across every periodic face. Every link that crosses the wrap of axis
-/// `a` leaves a voxel on the last layer along `a` with step +1 along `a`, so scanning that layer
-/// with the 5 D3Q19 links having +1 along `a` finds each crossing link once.
+/// Unions provisional labels across every periodic face (see [`for_each_wrap_link`]).
 fn join_across_wrap(shape: [usize; 3], periodic: [bool; 3], labels: &[u32], parent: &mut [u32]) {
+    for_each_wrap_link(shape, periodic, labels, |li, lj, _| {
+        union(parent, li, lj);
+    });
+}
+
+/// Calls `f(li, lj, wraps)` for every D3Q19 link between pore voxels that crosses the wrap of a
+/// `periodic` axis, with the labels `li`, `lj` of its two ends and, per axis, the number of times
+/// the link crosses that axis's wrap going from the `li` end to the `lj` end: +1 from the last
+/// layer to the first, −1 from the first to the last, 0 if it stays inside (so the `lj` voxel
+/// lies in the periodic copy `wraps` away from the `li` voxel's).
+///
+/// Every link that crosses the wrap of axis `a` leaves a voxel on the last layer along `a` with
+/// step +1 along `a`, so scanning that layer with the 5 D3Q19 links having +1 along `a` finds
+/// each crossing link; a link that also crosses the wrap of a second periodic axis is found once
+/// from each axis's layer, with the same `wraps`.
+fn for_each_wrap_link(
+    shape: [usize; 3],
+    periodic: [bool; 3],
+    labels: &[u32],
+    mut f: impl FnMut(u32, u32, [i8; 3]),
+) {
     if shape.contains(&0) {
         return;
     }
@@ -306,11 +325,28 @@ fn join_across_wrap(shape: [usize; 3], periodic: [bool; 3], labels: &[u32], pare
                     let j = q[0] + shape[0] * (q[1] + shape[1] * q[2]);
                     let lj = labels[j];
                     if lj != 0 {
-                        union(parent, li, lj);
+                        let mut wraps = [0i8; 3];
+                        wraps[a] = 1;
+                        wraps[b] = crossing(ib, db, shape[b]);
+                        wraps[c] = crossing(ic, dc, shape[c]);
+                        f(li, lj, wraps);
                     }
                 }
             }
         }
+    }
+}
+
+/// How often the step `d` (−1, 0 or +1) from coordinate `i` crosses the wrap of an axis of
+/// length `n`: +1 past the last layer, −1 before the first, else 0.
+fn crossing(i: usize, d: isize, n: usize) -> i8 {
+    let j = i as isize + d;
+    if j >= n as isize {
+        1
+    } else if j < 0 {
+        -1
+    } else {
+        0
     }
 }
 
