@@ -3,7 +3,7 @@
 //! problem, and that no output file was left behind.
 mod common;
 use common::cli::{run, write_mask_with};
-use common::{hostile_header, slit, sphere_cell};
+use common::{hostile_header, slit, sphere_cell, z_channel};
 use std::path::{Path, PathBuf};
 use voxperm::geometry::{Axis, PoreMask};
 use voxperm::volume::{TiffCompression, Volume, write_tiff_stack};
@@ -136,6 +136,47 @@ fn a_blocked_axis_names_the_file() {
     assert!(stderr.contains(&want), "{stderr}");
     assert_eq!(stderr.trim().lines().count(), 1, "{stderr}");
     assert!(!json.exists());
+}
+
+/// A Z-shaped channel joins the two x faces but not itself across the x wrap: with periodic ends
+/// it carries no net flow and is refused like a sample with no path (exit 4, no result file),
+/// instead of being solved to a spurious k. Mirrored ends make it a through-path again.
+#[test]
+fn periodic_ends_refuse_a_channel_that_does_not_wrap() {
+    let dir = tempfile::tempdir().unwrap();
+    let sample = write_mask(dir.path(), "z.tif", &z_channel(3));
+    let s = sample.to_str().unwrap();
+    let json = dir.path().join("never.json");
+    let j = json.to_str().unwrap();
+    for mode in [&["--periodic"][..], &["--ends", "periodic"][..]] {
+        let mut args = vec!["estimate", s, "--axis", "x", "--json", j];
+        args.extend_from_slice(mode);
+        assert_fails(
+            &args,
+            4,
+            &["z.tif", "no percolating pore path along x"],
+            &json,
+        );
+    }
+    let (code, stdout, stderr) = run(&["describe", s, "--periodic"]);
+    assert_eq!(code, 0, "{stderr}");
+    let x = stdout
+        .lines()
+        .find(|l| l.starts_with("axis x"))
+        .unwrap_or("");
+    assert!(x.contains("no percolating path"), "{stdout}");
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        s,
+        "--axis",
+        "x",
+        "--max-steps",
+        "2000",
+        "--json",
+        j,
+    ]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(json.exists());
 }
 
 #[test]

@@ -2,6 +2,8 @@
 //! axis under the boundary modes, specific surface from voxel faces, Kozeny–Carman estimates and
 //! the `describe` summary. All masks are built here from small closed-form shapes.
 
+mod common;
+use common::z_channel;
 use voxperm::analysis::kozeny::{
     KOZENY_CONSTANT, kozeny_carman_from_surface, kozeny_carman_spheres, sphere_bed_specific_surface,
 };
@@ -220,6 +222,102 @@ fn reaching_round_the_wrap_without_spanning_is_not_flow() {
     let p = percolating(&m, Axis::X, false, true).unwrap();
     assert!(!p.percolates);
     assert_eq!(p.clusters_total, 1);
+}
+
+#[test]
+fn z_channel_spans_the_cut_but_does_not_wrap_so_periodic_ends_refuse_it() {
+    // Its one cluster joins the inlet face to the outlet face, so with mirrored (cut) ends it
+    // carries flow; with periodic ends its two ends do not meet across the x wrap, it closes no
+    // loop around the periodic x axis and so can carry no net flow along x.
+    for width in [1, 3] {
+        let m = z_channel(width);
+        for sides in [false, true] {
+            let cut = percolating(&m, Axis::X, sides, false).unwrap();
+            assert!(cut.percolates, "width {width} sides {sides}");
+            assert_eq!(cut.connected_pore_voxels, m.pore_count());
+            let p = percolating(&m, Axis::X, sides, true).unwrap();
+            assert!(!p.percolates, "width {width} sides {sides}");
+            assert_eq!(p.connected_pore_voxels, 0);
+            assert_eq!(p.connected_porosity(), 0.0);
+            assert_eq!(p.mask.pore_count(), 0);
+            assert_eq!((p.clusters_total, p.clusters_kept), (1, 0));
+            let by_axis = percolation_by_axis(&m, sides, true).unwrap();
+            assert_eq!(by_axis[0], p.summary());
+            assert!(by_axis.iter().all(|a| !a.percolates), "{by_axis:?}");
+            assert!(!summarize(&m, sides, true).unwrap().percolates_anywhere());
+        }
+    }
+}
+
+#[test]
+fn connected_porosity_with_periodic_ends_counts_only_wrapping_clusters() {
+    // A straight channel along x at z = 6 beside the Z channel (z = 3): only the straight one
+    // wraps, so only its 32 voxels are connected pore space.
+    let z = z_channel(1);
+    let m = PoreMask::from_fn(z.shape(), |x, y, zz| {
+        z.is_pore(x, y, zz) || (y == 8 && zz == 6)
+    });
+    for sides in [false, true] {
+        let p = percolating(&m, Axis::X, sides, true).unwrap();
+        assert!(p.percolates);
+        assert_eq!(p.connected_pore_voxels, 32);
+        assert_eq!((p.clusters_total, p.clusters_kept), (2, 1));
+        assert!(p.mask.is_pore(0, 8, 6) && !p.mask.is_pore(0, 2, 3));
+        assert!((p.connected_porosity() - 32.0 / m.len() as f64).abs() < 1e-15);
+        assert_eq!(
+            percolation_by_axis(&m, sides, true).unwrap()[0],
+            p.summary()
+        );
+    }
+}
+
+#[test]
+fn diagonal_channels_that_wrap_through_the_sides_percolate_only_with_periodic_sides() {
+    // Once round: a staircase y = x / 2 in a 16 × 8 layer; (15, 7) meets (0, 0) along the edge
+    // link (+1, +1), which crosses the x and y faces together. The loop winds once along x and
+    // once along y, so with periodic sides it carries flow along both.
+    let once = PoreMask::from_fn([16, 8, 3], |x, y, z| z == 1 && y == x / 2);
+    // Twice round along x per turn along y: two strands y = x and y = x + 8 in an 8 × 16 layer;
+    // (7, 7) meets (0, 8) across the x wrap and (7, 15) meets (0, 0) across both wraps.
+    let twice = PoreMask::from_fn([8, 16, 3], |x, y, z| z == 1 && (y == x || y == x + 8));
+    for m in [&once, &twice] {
+        let n = m.pore_count();
+        let wrapped = percolating(m, Axis::X, true, true).unwrap();
+        assert!(wrapped.percolates);
+        assert_eq!(wrapped.connected_pore_voxels, n);
+        assert_eq!((wrapped.clusters_total, wrapped.clusters_kept), (1, 1));
+        assert_eq!(
+            percolation_by_axis(m, true, true)
+                .unwrap()
+                .map(|a| a.percolates),
+            [true, true, false]
+        );
+        // Sealed sides break the loop at the y faces: what is left is an open chain that
+        // reaches round the x wrap (for `twice`) or not at all (`once`), and spans the cut.
+        let sealed = percolating(m, Axis::X, false, true).unwrap();
+        assert!(!sealed.percolates, "{:?}", m.shape());
+        assert_eq!(sealed.clusters_total, 1);
+        let cut = percolating(m, Axis::X, false, false).unwrap();
+        assert!(cut.percolates);
+        assert_eq!(cut.connected_pore_voxels, n);
+    }
+}
+
+#[test]
+fn a_layer_one_voxel_thick_along_a_periodic_flow_axis_wraps_onto_itself() {
+    // n = 1 along x: every pore voxel is its own neighbour across the x wrap.
+    let m = PoreMask::from_fn([1, 4, 4], |_, y, z| y == 1 && z == 2);
+    let p = percolating(&m, Axis::X, false, true).unwrap();
+    assert!(p.percolates);
+    assert_eq!(p.connected_pore_voxels, 1);
+    // n = 2: the pair is linked directly and across the wrap.
+    let m = PoreMask::from_fn([2, 4, 4], |_, y, z| y == 1 && z == 2);
+    assert_eq!(
+        percolating(&m, Axis::X, false, true)
+            .unwrap()
+            .connected_pore_voxels,
+        2
+    );
 }
 
 #[test]

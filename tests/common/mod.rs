@@ -54,6 +54,21 @@ pub fn sphere_cell(l: usize, r: f64) -> PoreMask {
     })
 }
 
+/// A Z-shaped channel of square cross-section `width` in a 32 × 16 × 8 box, for percolation with
+/// periodic ends: one leg along x at y = 2 for x < 16, the other at y = 12 for x ≥ 16, joined by a
+/// riser along y at x = 16 − width. It connects the inlet face to the outlet face, but its two
+/// ends do not meet across the x wrap (nor across the y or z wraps), so in a periodic box it is a
+/// closed pocket that can carry no net flow along x.
+pub fn z_channel(width: usize) -> PoreMask {
+    PoreMask::from_fn([32, 16, 8], |x, y, z| {
+        let band = |lo: usize, v: usize| (lo..lo + width).contains(&v);
+        let first = x < 16 && band(2, y);
+        let second = x >= 16 && band(12, y);
+        let riser = band(16 - width, x) && (2..12 + width).contains(&y);
+        band(3, z) && (first || second || riser)
+    })
+}
+
 /// Relative error.
 pub fn rel(got: f64, want: f64) -> f64 {
     (got - want).abs() / want.abs()
