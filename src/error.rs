@@ -40,11 +40,10 @@ pub enum Error {
         needed_bytes: u64,
         limit_bytes: u64,
     },
-    /// No pore cluster connects the inlet to the outlet along the flow axis.
-    #[error(
-        "no percolating pore path along {axis}: the pore space does not connect the two {axis} faces"
-    )]
-    NoPercolatingPath { axis: char },
+    /// No pore cluster connects the inlet to the outlet along the flow axis; with periodic ends,
+    /// none winds round the periodic flow axis (see `geometry::connectivity::percolating`).
+    #[error("no percolating pore path along {axis}: {}", no_path_reason(*axis, *periodic_ends))]
+    NoPercolatingPath { axis: char, periodic_ends: bool },
     /// The solution blew up (NaN) or left the low-Mach regime.
     #[error("solver diverged at step {step}: {reason}")]
     Diverged { step: usize, reason: String },
@@ -114,6 +113,18 @@ impl Error {
     }
 }
 
+/// Why no path percolates: with periodic ends a pore path may connect the two faces and still
+/// carry no net flow, so that message would be false there.
+fn no_path_reason(axis: char, periodic_ends: bool) -> String {
+    if periodic_ends {
+        format!(
+            "with periodic ends, no pore path leaves through one {axis} face and comes back through the other to close on itself"
+        )
+    } else {
+        format!("the pore space does not connect the two {axis} faces")
+    }
+}
+
 /// Result type of the voxperm library.
 pub type Result<T> = std::result::Result<T, Error>;
 
@@ -123,13 +134,19 @@ mod tests {
 
     #[test]
     fn sample_errors_name_the_file_and_keep_their_code() {
-        let e = Error::NoPercolatingPath { axis: 'x' }.in_sample("core.tif");
-        assert_eq!(e.exit_code(), exit::SOLVER);
-        assert!(
-            e.to_string()
-                .starts_with("core.tif: no percolating pore path along x"),
-            "{e}"
-        );
+        for periodic_ends in [false, true] {
+            let e = Error::NoPercolatingPath {
+                axis: 'x',
+                periodic_ends,
+            }
+            .in_sample("core.tif");
+            assert_eq!(e.exit_code(), exit::SOLVER);
+            assert!(
+                e.to_string()
+                    .starts_with("core.tif: no percolating pore path along x: "),
+                "{e}"
+            );
+        }
         let u = Error::Usage("bad".into()).in_sample("core.tif");
         assert_eq!(u.to_string(), "bad");
     }
@@ -146,7 +163,11 @@ mod tests {
         assert_eq!(Error::Usage("x".into()).exit_code(), exit::USAGE);
         assert_eq!(Error::bad_input("a", "b").exit_code(), exit::BAD_INPUT);
         assert_eq!(
-            Error::NoPercolatingPath { axis: 'x' }.exit_code(),
+            Error::NoPercolatingPath {
+                axis: 'x',
+                periodic_ends: true
+            }
+            .exit_code(),
             exit::SOLVER
         );
         let e = Error::TooLarge {

@@ -151,12 +151,11 @@ fn periodic_ends_refuse_a_channel_that_does_not_wrap() {
     for mode in [&["--periodic"][..], &["--ends", "periodic"][..]] {
         let mut args = vec!["estimate", s, "--axis", "x", "--json", j];
         args.extend_from_slice(mode);
-        assert_fails(
-            &args,
-            4,
-            &["z.tif", "no percolating pore path along x"],
-            &json,
-        );
+        let needles = [
+            "z.tif: no percolating pore path along x",
+            "with periodic ends",
+        ];
+        assert_fails(&args, 4, &needles, &json);
     }
     let (code, stdout, stderr) = run(&["describe", s, "--periodic"]);
     assert_eq!(code, 0, "{stderr}");

@@ -116,6 +116,7 @@ pub fn estimate_axis(
     if !perc.percolates {
         return Err(Error::NoPercolatingPath {
             axis: axis.letter(),
+            periodic_ends: ends_periodic,
         });
     }
     // The whole solve stage against the limit, before anything is allocated: the same figure
@@ -238,6 +239,7 @@ pub fn estimate(
     if axes.iter().all(|a| !a.percolates) {
         return Err(Error::NoPercolatingPath {
             axis: cfg.axes[0].letter(),
+            periodic_ends: cfg.mode.ends == Ends::Periodic,
         });
     }
     let tensor =
