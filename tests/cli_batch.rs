@@ -585,6 +585,9 @@ fn report_is_self_contained_with_table_plots_methods_and_cautions() {
 
     let md = std::fs::read_to_string(dir.path().join("report.md")).unwrap();
     assert!(md.contains("## Methods") && md.contains("## Cautions"));
+    // Plain text stays plain: no HTML entities where a bare & or < cannot start markup.
+    assert!(md.contains("(Koponen, Kataja & Timonen 1996)"), "{md}");
+    assert!(!md.contains("&amp;") && !md.contains("&lt;"), "{md}");
     let svgs: Vec<&str> = md
         .lines()
         .filter_map(|l| l.strip_prefix("![").and_then(|l| l.split("](").nth(1)))
