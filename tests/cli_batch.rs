@@ -549,6 +549,7 @@ fn report_is_self_contained_with_table_plots_methods_and_cautions() {
         "anisotropy",
         "Kozeny–Carman k (mD)",
         "pore diameter (voxels)",
+        "converged (steps per axis)",
         // The failed sample with its error.
         "d-corrupt",
         "d-corrupt.tif",

@@ -87,7 +87,7 @@ pub fn build(title: &str, entries: &[Entry], failed: Vec<(String, String)>) -> R
         return Err(Error::Usage("no results to report".into()));
     }
     let (plots, mut table_notes) = comparison_plots(entries)?;
-    table_notes.insert(0, "Permeability in mD (1 mD = 9.869233e-16 m²) and m² where the voxel size is known, else in voxel². Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; under about ten voxels expect a resolution error (common practice).".into());
+    table_notes.insert(0, "Permeability in mD (1 mD = 9.869233e-16 m²) and m² where the voxel size is known, else in voxel². Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; under about ten voxels expect a resolution error (common practice). Converged: per flow axis, whether its solve became steady, with its time steps (per solve, as in Methods; steps of a warm start on the coarsened image are not counted).".into());
     Ok(Document {
         title: title.to_string(),
         comparison: comparison_table(entries),
@@ -115,7 +115,7 @@ fn comparison_table(entries: &[Entry]) -> Table {
         "Kozeny–Carman k (mD)",
         "implied Kozeny constant (–)",
         "pore diameter (voxels)",
-        "converged (steps)",
+        "converged (steps per axis)",
     ];
     let rows = entries
         .iter()
@@ -139,11 +139,7 @@ fn comparison_table(entries: &[Entry]) -> Table {
                 vec![opt(g.and_then(|g| g.kozeny_carman_md))],
                 per_axis(r, |a| r.implied_kozeny(a)),
                 vec![opt(r.pore_diameter_voxels())],
-                vec![format!(
-                    "{} ({})",
-                    if r.converged { "yes" } else { "NO" },
-                    r.steps
-                )],
+                convergence(r),
             ]
         })
         .collect();
@@ -152,6 +148,19 @@ fn comparison_table(entries: &[Entry]) -> Table {
         rows,
         numeric: true,
     }
+}
+
+/// "x yes (400)" for each solved axis: whether its solve converged and its steps, the same
+/// per-solve count as the methods' "Steps per solve". An axis without a percolating path had
+/// no solve.
+fn convergence(r: &ResultView) -> Vec<String> {
+    r.axes
+        .iter()
+        .map(|a| match (a.percolates, a.converged) {
+            (false, _) => format!("{} no solve (no flow path)", a.axis),
+            (true, c) => format!("{} {} ({})", a.axis, if c { "yes" } else { "NO" }, a.steps),
+        })
+        .collect()
 }
 
 /// k in the report's unit: mD when every sample has a voxel size, else voxel² when none has.
@@ -364,7 +373,15 @@ fn methods(entries: &[Entry]) -> Vec<String> {
             }
         };
         let used_steps = match (steps.iter().min(), steps.iter().max()) {
-            (Some(a), Some(b)) => format!(" Steps used: {}.", range(a.to_string(), b.to_string())),
+            (Some(a), Some(b)) => format!(
+                " Time steps per solve (one flow axis{}): {}.",
+                if members[0].result.settings.solver.warm_start {
+                    ", on the full grid after the coarsened start"
+                } else {
+                    ""
+                },
+                range(a.to_string(), b.to_string())
+            ),
             _ => String::new(),
         };
         let used_force = if forces.is_empty() {
@@ -469,4 +486,81 @@ fn cautions(entries: &[Entry]) -> Vec<String> {
         out.push(format!("Periodic ends assume the structure repeats along the flow axis, which holds for generated unit cells but not for scans: {}.", periodic.join(", ")));
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use serde_json::json;
+
+    /// A result of two solved axes (x: 400 steps, y: 300), with or without a voxel size.
+    fn result(voxel_m: Option<f64>) -> ResultView {
+        let md = |k: f64| voxel_m.map(|dx| m2_to_md(k * dx * dx));
+        let m2 = |k: f64| voxel_m.map(|dx| k * dx * dx);
+        let axis = |a: &str, k: f64, steps: usize| {
+            json!({
+                "axis": a, "percolates": true, "connected_porosity": 0.4,
+                "permeability_lattice": k, "permeability_m2": m2(k), "permeability_mD": md(k),
+                "flow": {"tortuosity": 1.2, "reynolds": 1e-3, "mach": 1e-3},
+                "steps": steps, "converged": true, "residual": 1e-7, "body_force": 1e-5
+            })
+        };
+        let v = json!({
+            "version": "0", "porosity": 0.4, "steps": 700, "converged": true,
+            "wall_seconds": 1.0, "voxel_size_m": voxel_m,
+            "geometry": {
+                "specific_surface_per_voxel": 0.2, "specific_surface_per_m": voxel_m.map(|dx| 0.2 / dx),
+                "surface_estimator": "test", "kozeny_carman_lattice": 0.32,
+                "kozeny_carman_m2": m2(0.32), "kozeny_carman_mD": md(0.32),
+                "kozeny_constant_assumed": 5.0
+            },
+            "input": {
+                "path": "a.tif", "sha256": "0", "shape": [32, 32, 32],
+                "segmentation": "pore labels 0", "crop": null, "voxel_size_source": "test"
+            },
+            "settings": {
+                "lattice": "D3Q19",
+                "solver": {
+                    "collision": "trt", "tau": 1.0, "magic": 0.1875, "tolerance": 1e-5,
+                    "max_steps": 1000, "check_every": 100, "force": null, "target_speed": 2e-3,
+                    "warm_start": true
+                },
+                "tau_minus": 0.875, "viscosity_lattice": 0.1667, "sides": "sealed",
+                "ends": "mirror", "connectivity": "test"
+            },
+            "axes": [axis("x", 0.2, 400), axis("y", 0.1, 300)],
+            "tensor_analysis": null, "flow_snapshot": null
+        });
+        serde_json::from_value(v).expect("a result view")
+    }
+
+    fn entry(name: &str, voxel_m: Option<f64>) -> Entry {
+        Entry {
+            name: name.into(),
+            result: result(voxel_m),
+        }
+    }
+
+    fn column<'a>(t: &'a Table, header_start: &str) -> Vec<&'a Vec<String>> {
+        let i = t
+            .headers
+            .iter()
+            .position(|h| h.starts_with(header_start))
+            .unwrap_or_else(|| panic!("no column '{header_start}' in {:?}", t.headers));
+        t.rows.iter().map(|r| &r[i]).collect()
+    }
+
+    /// The table and the methods count steps alike: per solve (one axis), not summed.
+    #[test]
+    fn steps_are_per_axis_in_table_and_methods() {
+        let d = build("t", &[entry("a", Some(2e-6))], vec![]).unwrap();
+        assert_eq!(
+            column(&d.comparison, "converged (steps per axis)"),
+            [&vec!["x yes (400)".to_string(), "y yes (300)".to_string()]]
+        );
+        let m = d.methods.join(" ");
+        assert!(m.contains("Time steps per solve (one flow axis"), "{m}");
+        assert!(m.contains("): 300 to 400."), "{m}");
+        assert!(!m.contains("700"), "{m}");
+    }
 }
