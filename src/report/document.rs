@@ -87,7 +87,7 @@ pub fn build(title: &str, entries: &[Entry], failed: Vec<(String, String)>) -> R
         return Err(Error::Usage("no results to report".into()));
     }
     let (plots, mut table_notes) = comparison_plots(entries)?;
-    table_notes.insert(0, "Permeability in mD (1 mD = 9.869233e-16 m²) and m² where the voxel size is known, else in voxel². Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; under about ten voxels expect a resolution error (common practice). Converged: per flow axis, whether its solve became steady, with its time steps (per solve, as in Methods; steps of a warm start on the coarsened image are not counted).".into());
+    table_notes.insert(0, "Permeability k and its Kozeny–Carman estimate in voxel² (the lattice unit: voxel edge = 1) for every sample, and in mD (1 mD = 9.869233e-16 m²; k also in m²) where the voxel size is known. Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; under about ten voxels expect a resolution error (common practice). Converged: per flow axis, whether its solve became steady, with its time steps (per solve, as in Methods; steps of a warm start on the coarsened image are not counted).".into());
     Ok(Document {
         title: title.to_string(),
         comparison: comparison_table(entries),
@@ -113,6 +113,7 @@ fn comparison_table(entries: &[Entry]) -> Table {
         "tortuosity (–)",
         "specific surface S (1/m)",
         "Kozeny–Carman k (mD)",
+        "Kozeny–Carman k (voxel²)",
         "implied Kozeny constant (–)",
         "pore diameter (voxels)",
         "converged (steps per axis)",
@@ -137,6 +138,7 @@ fn comparison_table(entries: &[Entry]) -> Table {
                 per_axis(r, |a| ax(a).and_then(|v| v.flow.as_ref()?.tortuosity)),
                 vec![opt(g.and_then(|g| g.specific_surface_per_m))],
                 vec![opt(g.and_then(|g| g.kozeny_carman_md))],
+                vec![opt(g.and_then(|g| g.kozeny_carman_lattice))],
                 per_axis(r, |a| r.implied_kozeny(a)),
                 vec![opt(r.pore_diameter_voxels())],
                 convergence(r),
@@ -562,5 +564,22 @@ mod tests {
         assert!(m.contains("Time steps per solve (one flow axis"), "{m}");
         assert!(m.contains("): 300 to 400."), "{m}");
         assert!(!m.contains("700"), "{m}");
+    }
+
+    /// Without a voxel size the Kozeny–Carman estimate is still given, in voxel² like k.
+    #[test]
+    fn kozeny_carman_in_the_units_of_k() {
+        let d = build("t", &[entry("a", None), entry("b", Some(2e-6))], vec![]).unwrap();
+        let kc = ["0.3200".to_string()];
+        assert_eq!(
+            column(&d.comparison, "Kozeny–Carman k (voxel²)"),
+            [&kc, &kc]
+        );
+        assert_eq!(column(&d.comparison, "k (voxel²)")[0][0], "x 0.2000");
+        let md = num(m2_to_md(0.32 * 4e-12));
+        assert_eq!(
+            column(&d.comparison, "Kozeny–Carman k (mD)"),
+            [&vec!["–".to_string()], &vec![md]]
+        );
     }
 }
