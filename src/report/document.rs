@@ -194,21 +194,34 @@ fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
         kozeny_carman: vec![],
         curves: vec![],
         unit: unit.into(),
+        samples: vec![],
     };
     let mut tort = [vec![], vec![], vec![]];
+    let mut tort_samples = Vec::new();
     let mut bars = Vec::new();
     let mut grains = Vec::new();
     for e in entries {
         let r = &e.result;
         let phi = r.porosity;
+        let (mut ks, mut ts) = (Vec::new(), Vec::new());
         for a in Axis::ALL {
             if let Some(k) = k_of(e, a).filter(|k| *k > 0.0) {
                 pp.simulated[a.index()].push((phi, k));
+                ks.push((phi, k));
             }
             if let Some(t) = r.axis(a).and_then(|v| v.flow.as_ref()?.tortuosity) {
                 tort[a.index()].push((phi, t));
+                ts.push((phi, t));
             }
         }
+        pp.samples.push(plots::Named {
+            name: e.name.clone(),
+            points: ks,
+        });
+        tort_samples.push(plots::Named {
+            name: e.name.clone(),
+            points: ts,
+        });
         bars.push(Axis::ALL.map(|a| k_of(e, a)));
         let g = r.geometry.as_ref();
         let kc = if physical {
@@ -267,7 +280,7 @@ fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
             id: "tortuosity-porosity".into(),
             caption: "Hydraulic tortuosity (Koponen, Kataja & Timonen 1996) against porosity."
                 .into(),
-            svg: plots::tortuosity_porosity(&tort)?,
+            svg: plots::tortuosity_porosity(&tort, &tort_samples)?,
         });
     }
     Ok((plots, notes))

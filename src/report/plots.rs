@@ -56,12 +56,75 @@ pub fn log_range(values: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
     Some((10f64.powf(a), 10f64.powf(b)))
 }
 
-/// Tick label of a log axis: "1e3" style, plain for 0.01–1000.
-fn decade(v: f64) -> String {
-    if (0.01..=1000.0).contains(&v) {
-        format!("{v}")
+/// `v` rounded to `digits` significant figures, printed in the shortest form that reads back as
+/// that: "20", "0.5", "1.05", never "20.0" or "0.30000000000000004".
+pub fn significant(v: f64, digits: usize) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return if v.is_finite() {
+            "0".into()
+        } else {
+            "–".into()
+        };
+    }
+    let rounded: f64 = format!("{v:.*e}", digits.saturating_sub(1))
+        .parse()
+        .unwrap_or(v);
+    format!("{rounded}")
+}
+
+/// Tick label of a linear axis: plain and without trailing zeros ("0", "20", "1.05"); powers of
+/// ten outside 0.001–10⁶, which no axis of the report reaches in practice.
+pub fn tick(v: f64) -> String {
+    let a = v.abs();
+    if a != 0.0 && !(1e-3..1e6).contains(&a) {
+        return power_of_ten(v);
+    }
+    significant(v, 6)
+}
+
+/// Digits of `n` as superscripts, with a superscript minus: 10⁻³.
+fn superscript(n: i32) -> String {
+    let digits = ['⁰', '¹', '²', '³', '⁴', '⁵', '⁶', '⁷', '⁸', '⁹'];
+    let mut out: String = n
+        .unsigned_abs()
+        .to_string()
+        .bytes()
+        .map(|b| digits[usize::from(b - b'0')])
+        .collect();
+    if n < 0 {
+        out.insert(0, '⁻');
+    }
+    out
+}
+
+/// "10⁴", or "2.5×10⁴" off the decades.
+fn power_of_ten(v: f64) -> String {
+    let e = v.abs().log10().floor() as i32;
+    let m: f64 = significant(v / 10f64.powi(e), 3).parse().unwrap_or(1.0);
+    // Rounding may carry the mantissa to 10.
+    let (m, e) = if m.abs() >= 10.0 {
+        (m / 10.0, e + 1)
     } else {
-        format!("{v:.0e}")
+        (m, e)
+    };
+    if m == 1.0 {
+        format!("10{}", superscript(e))
+    } else {
+        format!("{}×10{}", significant(m, 3), superscript(e))
+    }
+}
+
+/// Tick labels of a log axis spanning `lo`–`hi`: all plain ("0.01" … "1000") when every
+/// decade of the axis lies in 0.01–1000, else all powers of ten ("10³", "10⁴"), so one axis
+/// never mixes "1000" with "1e4".
+pub fn decade_labels(lo: f64, hi: f64) -> impl Fn(&f64) -> String {
+    let plain = lo >= 0.01 * (1.0 - 1e-9) && hi <= 1000.0 * (1.0 + 1e-9);
+    move |v: &f64| {
+        if plain {
+            significant(*v, 6)
+        } else {
+            power_of_ten(*v)
+        }
     }
 }
 
@@ -82,7 +145,17 @@ pub struct PermeabilityPorosity {
     pub curves: Vec<(String, Vec<(f64, f64)>)>,
     /// Unit of k, e.g. "mD".
     pub unit: String,
+    /// Each sample's simulated points, for the names beside them.
+    pub samples: Vec<Named>,
 }
+
+/// A sample's name and its points in a scatter plot, which the name is drawn beside.
+pub struct Named {
+    pub name: String,
+    pub points: Vec<(f64, f64)>,
+}
+
+const KC_LABEL: &str = "Kozeny–Carman φ³/(5 S²) of the sample";
 
 /// k against porosity on a log axis, with the samples' Kozeny–Carman values and curves.
 pub fn permeability_porosity(d: &PermeabilityPorosity) -> Result<String> {
@@ -93,8 +166,10 @@ pub fn permeability_porosity(d: &PermeabilityPorosity) -> Result<String> {
     let (p0, p1) = porosity_range(all_k.map(|p| p.0));
     // A decade of headroom keeps the legend clear of the points.
     let k1 = k1 * 10.0;
-    svg(SIZE, |root| {
-        let mut c = ChartBuilder::on(root)
+    let key = SampleKey::new(&d.samples, SIZE.0);
+    svg((SIZE.0, SIZE.1 + key.height()), |root| {
+        let (top, _) = root.split_vertically(SIZE.1);
+        let mut c = ChartBuilder::on(&top)
             .caption("Permeability and porosity", (FONT, 20))
             .margin(14)
             .x_label_area_size(48)
@@ -106,7 +181,8 @@ pub fn permeability_porosity(d: &PermeabilityPorosity) -> Result<String> {
             .axis_desc_style((FONT, 13))
             .max_light_lines(1)
             .x_desc("porosity φ (–)")
-            .y_label_formatter(&|v| decade(*v))
+            .x_label_formatter(&|v| tick(*v))
+            .y_label_formatter(&decade_labels(k0, k1))
             .y_desc(format!("permeability k ({})", d.unit))
             .draw()
             .map_err(plot_error)?;
@@ -130,10 +206,30 @@ pub fn permeability_porosity(d: &PermeabilityPorosity) -> Result<String> {
             .map(|&p| TriangleMarker::new(p, 6, ShapeStyle::from(&BLACK).stroke_width(1)));
         c.draw_series(kc)
             .map_err(plot_error)?
-            .label("Kozeny–Carman φ³/(5 S²) of the sample")
+            .label(KC_LABEL)
             .legend(|(x, y)| TriangleMarker::new((x + 9, y), 6, BLACK));
         axis_points(&mut c, &d.simulated, "simulated, flow along")?;
-        legend(&mut c, SeriesLabelPosition::UpperLeft)
+        legend(&mut c, SeriesLabelPosition::UpperLeft)?;
+        let mut legend_labels: Vec<&str> = d.curves.iter().map(|(l, _)| l.as_str()).collect();
+        legend_labels.push(KC_LABEL);
+        let axes = d.simulated.iter().filter(|p| !p.is_empty()).count();
+        let markers: Vec<(f64, f64)> = d
+            .simulated
+            .iter()
+            .flatten()
+            .chain(&d.kozeny_carman)
+            .copied()
+            .collect();
+        let area = c.plotting_area().get_pixel_range();
+        let px = |p: (f64, f64)| c.backend_coord(&p);
+        let legend_box = legend_box(
+            &area,
+            SeriesLabelPosition::UpperLeft,
+            &legend_labels,
+            axes,
+            "simulated, flow along x",
+        );
+        key.draw(root, &area, &px, &markers, legend_box, SIZE.1)
     })
 }
 
@@ -160,7 +256,7 @@ pub fn permeability_bars(names: &[String], k: &[[Option<f64>; 3]], unit: &str) -
             .max_light_lines(1)
             .x_labels(0)
             .x_desc("sample")
-            .y_label_formatter(&|v| decade(*v))
+            .y_label_formatter(&decade_labels(k0, k1))
             .y_desc(format!("permeability k ({unit})"))
             .draw()
             .map_err(plot_error)?;
@@ -201,7 +297,7 @@ pub fn permeability_bars(names: &[String], k: &[[Option<f64>; 3]], unit: &str) -
 }
 
 /// Hydraulic tortuosity against porosity, per flow axis.
-pub fn tortuosity_porosity(points: &[Vec<(f64, f64)>; 3]) -> Result<String> {
+pub fn tortuosity_porosity(points: &[Vec<(f64, f64)>; 3], samples: &[Named]) -> Result<String> {
     let all: Vec<(f64, f64)> = points.iter().flatten().copied().collect();
     if all.is_empty() {
         return Err(Error::Usage("no tortuosity to plot".into()));
@@ -209,8 +305,10 @@ pub fn tortuosity_porosity(points: &[Vec<(f64, f64)>; 3]) -> Result<String> {
     let (p0, p1) = porosity_range(all.iter().map(|p| p.0));
     let t1 = all.iter().fold(1.0f64, |m, p| m.max(p.1));
     let t1 = 1.0 + ((t1 - 1.0) * 1.25).max(0.05);
-    svg(SIZE, |root| {
-        let mut c = ChartBuilder::on(root)
+    let key = SampleKey::new(samples, SIZE.0);
+    svg((SIZE.0, SIZE.1 + key.height()), |root| {
+        let (top, _) = root.split_vertically(SIZE.1);
+        let mut c = ChartBuilder::on(&top)
             .caption("Hydraulic tortuosity and porosity", (FONT, 20))
             .margin(14)
             .x_label_area_size(48)
@@ -222,12 +320,267 @@ pub fn tortuosity_porosity(points: &[Vec<(f64, f64)>; 3]) -> Result<String> {
             .axis_desc_style((FONT, 13))
             .max_light_lines(1)
             .x_desc("porosity φ (–)")
+            .x_label_formatter(&|v| tick(*v))
+            .y_label_formatter(&|v| tick(*v))
             .y_desc("hydraulic tortuosity Σ|u| / Σu_axis (–)")
             .draw()
             .map_err(plot_error)?;
         axis_points(&mut c, points, "flow along")?;
-        legend(&mut c, SeriesLabelPosition::UpperRight)
+        legend(&mut c, SeriesLabelPosition::UpperRight)?;
+        let axes = points.iter().filter(|p| !p.is_empty()).count();
+        let area = c.plotting_area().get_pixel_range();
+        let px = |p: (f64, f64)| c.backend_coord(&p);
+        let legend_box = legend_box(
+            &area,
+            SeriesLabelPosition::UpperRight,
+            &[],
+            axes,
+            "flow along x",
+        );
+        key.draw(root, &area, &px, &all, legend_box, SIZE.1)
     })
+}
+
+/// A pixel rectangle: left, top, right, bottom.
+type PixelBox = (i32, i32, i32, i32);
+
+fn overlap(a: PixelBox, b: PixelBox) -> i64 {
+    let w = (a.2.min(b.2) - a.0.max(b.0)).max(0);
+    let h = (a.3.min(b.3) - a.1.max(b.1)).max(0);
+    i64::from(w) * i64::from(h)
+}
+
+/// Distance from a point to a box (0 inside it), pixels.
+fn box_distance(b: PixelBox, (x, y): (i32, i32)) -> f64 {
+    let dx = (b.0 - x).max(x - b.2).max(0);
+    let dy = (b.1 - y).max(y - b.3).max(0);
+    f64::from(dx).hypot(f64::from(dy))
+}
+
+/// Size of the sample names beside the points (plotters units; the SVG gets size / 1.24 px).
+const NAME_FONT: f64 = 12.0;
+/// Samples whose names fit beside their points; more get numbers and a key under the plot.
+const MAX_NAMED: usize = 8;
+/// Longest name drawn beside a point, in characters; a longer one switches to numbers too.
+const MAX_NAME_CHARS: usize = 20;
+/// Points closer than this (pixels, each direction) are one place: their names share a label.
+const SAME_PLACE: i32 = 4;
+/// Radius of the scatter markers, pixels.
+const MARKER: i32 = 5;
+/// Row height and column width of the numbered key under a plot, pixels.
+const KEY_ROW: u32 = 15;
+const KEY_COLUMN: u32 = 200;
+
+/// Rough width of `text` in the SVG at plotters size `size` (a browser's sans-serif averages
+/// about 0.55 em per character; a little more keeps labels apart). Our own estimate: plotters
+/// without its font features has none better.
+fn text_width(text: &str, size: f64) -> i32 {
+    (text.chars().count() as f64 * size / 1.24 * 0.6).ceil() as i32
+}
+
+/// Where plotters puts the legend box ([`legend`]): measured from its SVG for this font size,
+/// about 15 px a row plus 15, and 36 px plus 6.6 px per character of the longest label.
+fn legend_box(
+    area: &(std::ops::Range<i32>, std::ops::Range<i32>),
+    position: SeriesLabelPosition,
+    labels: &[&str],
+    axis_rows: usize,
+    axis_label: &str,
+) -> PixelBox {
+    let rows = (labels.len() + axis_rows) as i32;
+    let chars = labels
+        .iter()
+        .chain([&axis_label])
+        .map(|l| l.chars().count())
+        .max()
+        .unwrap_or(0);
+    let (w, h) = (36 + (6.6 * chars as f64) as i32, 15 * rows + 15);
+    let top = area.1.start + 5;
+    match position {
+        SeriesLabelPosition::UpperRight => (area.0.end - 5 - w, top, area.0.end - 5, top + h),
+        _ => (area.0.start + 5, top, area.0.start + 5 + w, top + h),
+    }
+}
+
+/// How samples are named in a scatter plot: their names beside the points, or (many or long
+/// names) numbers beside the points and a key "1 name" under the plot.
+struct SampleKey<'a> {
+    samples: &'a [Named],
+    numbered: bool,
+    columns: u32,
+}
+
+impl<'a> SampleKey<'a> {
+    fn new(samples: &'a [Named], width: u32) -> SampleKey<'a> {
+        let numbered = samples.len() > MAX_NAMED
+            || samples
+                .iter()
+                .any(|s| s.name.chars().count() > MAX_NAME_CHARS);
+        SampleKey {
+            samples,
+            numbered,
+            columns: ((width - 20) / KEY_COLUMN).max(1),
+        }
+    }
+
+    /// Extra canvas height the key needs under the plot.
+    fn height(&self) -> u32 {
+        if self.numbered {
+            (self.samples.len() as u32).div_ceil(self.columns) * KEY_ROW + 12
+        } else {
+            0
+        }
+    }
+
+    fn tag(&self, i: usize) -> String {
+        if self.numbered {
+            (i + 1).to_string()
+        } else {
+            self.samples[i].name.clone()
+        }
+    }
+
+    /// Draws each sample's name (or number) beside its topmost point, moved off other labels,
+    /// markers and the legend where it can be; samples at one place share a label ("a, b"), so
+    /// a point hidden under another is still named. Then the key, from `key_top` down.
+    fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+        area: &(std::ops::Range<i32>, std::ops::Range<i32>),
+        px: &dyn Fn((f64, f64)) -> (i32, i32),
+        markers: &[(f64, f64)],
+        legend: PixelBox,
+        key_top: u32,
+    ) -> Result<()> {
+        // Every labelled point in pixels, with its sample.
+        let points: Vec<((i32, i32), usize)> = self
+            .samples
+            .iter()
+            .enumerate()
+            .flat_map(|(i, s)| s.points.iter().map(move |&p| (p, i)))
+            .map(|(p, i)| (px(p), i))
+            .collect();
+        // Topmost point of each sample, in pixels.
+        let anchors: Vec<Option<(i32, i32)>> = self
+            .samples
+            .iter()
+            .map(|s| s.points.iter().map(|&p| px(p)).min_by_key(|p| (p.1, p.0)))
+            .collect();
+        let mut groups: Vec<((i32, i32), Vec<usize>)> = Vec::new();
+        for (i, a) in anchors.iter().enumerate() {
+            let Some(a) = *a else { continue };
+            let near = |g: &&mut ((i32, i32), Vec<usize>)| {
+                (g.0.0 - a.0).abs() <= SAME_PLACE && (g.0.1 - a.1).abs() <= SAME_PLACE
+            };
+            match groups.iter_mut().find(|g| near(g)) {
+                Some(g) => g.1.push(i),
+                None => groups.push((a, vec![i])),
+            }
+        }
+        let mut taken: Vec<PixelBox> = markers
+            .iter()
+            .map(|&p| {
+                let (x, y) = px(p);
+                (x - MARKER, y - MARKER, x + MARKER, y + MARKER)
+            })
+            .collect();
+        taken.push(legend);
+        let bounds = (area.0.start, area.1.start, area.0.end, area.1.end);
+        let grey = BLACK.mix(0.8);
+        let style = TextStyle::from((FONT, NAME_FONT).into_font())
+            .color(&grey)
+            .pos(Pos::new(HPos::Left, VPos::Top));
+        let h = (NAME_FONT / 1.24).ceil() as i32 + 2;
+        for ((x, y), members) in &groups {
+            let text = members
+                .iter()
+                .map(|&i| self.tag(i))
+                .collect::<Vec<_>>()
+                .join(", ");
+            let w = text_width(&text, NAME_FONT);
+            let gap = MARKER + 3;
+            // Right, left, above, below, then the corners and one row further out.
+            let candidates = [
+                (x + gap, y - h / 2),
+                (x - gap - w, y - h / 2),
+                (x - w / 2, y - gap - h),
+                (x - w / 2, y + gap),
+                (x + gap, y - gap - h + 2),
+                (x + gap, y + gap - 2),
+                (x - gap - w, y - gap - h + 2),
+                (x - gap - w, y + gap - 2),
+                (x + gap, y - h / 2 - 2 * h),
+                (x + gap, y - h / 2 + 2 * h),
+            ];
+            // A label nearer to another sample's point than to its own would name the wrong
+            // point: as bad as covering a label.
+            let nearest = |b: PixelBox, own: bool| {
+                points
+                    .iter()
+                    .filter(|(_, i)| members.contains(i) == own)
+                    .map(|&(p, _)| box_distance(b, p))
+                    .fold(f64::INFINITY, f64::min)
+            };
+            let score = |&(l, t): &(i32, i32)| {
+                let b = (l, t, l + w, t + h);
+                let area = i64::from(w) * i64::from(h);
+                let outside = area - overlap(b, bounds);
+                let misleading = if nearest(b, false) <= nearest(b, true) {
+                    area
+                } else {
+                    0
+                };
+                10 * outside + misleading + taken.iter().map(|&o| overlap(b, o)).sum::<i64>()
+            };
+            let best = candidates
+                .iter()
+                .enumerate()
+                .min_by_key(|(n, c)| (score(c), *n))
+                .map(|(_, c)| *c)
+                .unwrap_or(candidates[0]);
+            taken.push((best.0, best.1, best.0 + w, best.1 + h));
+            // A label moved away from its point gets a faint line to it.
+            let near = (
+                (*x).clamp(best.0, best.0 + w),
+                (*y).clamp(best.1, best.1 + h),
+            );
+            let (dx, dy) = (f64::from(near.0 - x), f64::from(near.1 - y));
+            let dist = dx.hypot(dy);
+            if dist > f64::from(gap + 3) {
+                let from = (
+                    x + (dx / dist * f64::from(MARKER + 1)).round() as i32,
+                    y + (dy / dist * f64::from(MARKER + 1)).round() as i32,
+                );
+                root.draw(&PathElement::new([from, near], BLACK.mix(0.4)))
+                    .map_err(plot_error)?;
+            }
+            root.draw(&Text::new(text, best, style.clone()))
+                .map_err(plot_error)?;
+        }
+        if !self.numbered {
+            return Ok(());
+        }
+        let key =
+            TextStyle::from((FONT, NAME_FONT).into_font()).pos(Pos::new(HPos::Left, VPos::Top));
+        for (i, s) in self.samples.iter().enumerate() {
+            let (row, col) = (i as u32 / self.columns, i as u32 % self.columns);
+            let mut name: String = s.name.chars().take(30).collect();
+            if s.name.chars().count() > 30 {
+                name.push('…');
+            }
+            let at = (
+                (14 + col * KEY_COLUMN) as i32,
+                (key_top + 4 + row * KEY_ROW) as i32,
+            );
+            root.draw(&Text::new(
+                format!("{}\u{2002}{name}", i + 1),
+                at,
+                key.clone(),
+            ))
+            .map_err(plot_error)?;
+        }
+        Ok(())
+    }
 }
 
 /// One series of dots per flow axis (axis colours), labelled "`label` x" etc.; empty axes are
@@ -284,6 +637,8 @@ pub fn speed_histogram(h: &SpeedHistogram, title: &str) -> Result<String> {
             .max_light_lines(1)
             .x_desc("local speed |u| / mean speed ⟨|u|⟩ (–)")
             .y_desc("fluid nodes per bin (%)")
+            .x_label_formatter(&|v| tick(*v))
+            .y_label_formatter(&|v| tick(*v))
             .draw()
             .map_err(plot_error)?;
         let bars = pct
@@ -353,6 +708,8 @@ pub fn speed_map(m: &SpeedMap, voxel_m: Option<f64>, title: &str) -> Result<Stri
             .disable_mesh()
             .x_desc(format!("{} ({unit})", m.horizontal))
             .y_desc(format!("{} ({unit})", m.vertical))
+            .x_label_formatter(&|v| tick(*v))
+            .y_label_formatter(&|v| tick(*v))
             .draw()
             .map_err(plot_error)?;
         // Runs of equal colour along a row become one rectangle: far fewer SVG elements.
@@ -390,6 +747,7 @@ pub fn speed_map(m: &SpeedMap, voxel_m: Option<f64>, title: &str) -> Result<Stri
             .disable_mesh()
             .disable_x_axis()
             .y_labels(5)
+            .y_label_formatter(&|v| tick(*v))
             .y_desc("|u| / ⟨|u|⟩ (–)")
             .draw()
             .map_err(plot_error)?;
@@ -408,6 +766,98 @@ pub fn speed_map(m: &SpeedMap, voxel_m: Option<f64>, title: &str) -> Result<Stri
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Text of every `<text>` element of an SVG, in order.
+    fn texts(svg: &str) -> Vec<String> {
+        svg.split("<text")
+            .skip(1)
+            .map(|t| {
+                let body = &t[t.find('>').unwrap() + 1..t.find("</text>").unwrap()];
+                body.trim().to_string()
+            })
+            .collect()
+    }
+
+    #[test]
+    fn ticks_are_compact_and_one_style_per_axis() {
+        assert_eq!(tick(20.0), "20");
+        assert_eq!(tick(0.0), "0");
+        assert_eq!(tick(0.1 + 0.2), "0.3");
+        assert_eq!(tick(1.05), "1.05");
+        assert_eq!(tick(-2.5), "-2.5");
+        let wide = decade_labels(1e3, 1e7);
+        assert_eq!([1e3, 1e4, 1e7].map(|v| wide(&v)), ["10³", "10⁴", "10⁷"]);
+        assert_eq!(wide(&2e4), "2×10⁴");
+        let small = decade_labels(1e-4, 1e-2);
+        assert_eq!(small(&1e-3), "10⁻³");
+        let plain = decade_labels(0.01, 1000.0);
+        assert_eq!(
+            [0.01, 1.0, 1000.0].map(|v| plain(&v)),
+            ["0.01", "1", "1000"]
+        );
+    }
+
+    fn named(name: &str, points: &[(f64, f64)]) -> Named {
+        Named {
+            name: name.into(),
+            points: points.to_vec(),
+        }
+    }
+
+    /// Each sample is named beside its points; samples on one spot share one label.
+    #[test]
+    fn scatter_points_carry_sample_names() {
+        let samples = [
+            named("pack-a", &[(0.45, 1.2)]),
+            named("pack-b", &[(0.45, 1.2)]),
+            named("foam", &[(0.7, 1.1), (0.7, 1.15)]),
+        ];
+        let points = [
+            vec![(0.45, 1.2), (0.45, 1.2), (0.7, 1.1)],
+            vec![(0.7, 1.15)],
+            vec![],
+        ];
+        let t = texts(&tortuosity_porosity(&points, &samples).unwrap());
+        assert_eq!(
+            t.iter().filter(|s| *s == "pack-a, pack-b").count(),
+            1,
+            "{t:?}"
+        );
+        assert_eq!(t.iter().filter(|s| *s == "foam").count(), 1, "{t:?}");
+        assert!(!t.iter().any(|s| s == "pack-a"), "{t:?}");
+    }
+
+    /// Many samples: numbers beside the points and a key of numbers and names under the plot.
+    #[test]
+    fn many_samples_get_a_numbered_key() {
+        let samples: Vec<Named> = (0..MAX_NAMED + 1)
+            .map(|i| {
+                named(
+                    &format!("core {i}"),
+                    &[(0.3 + 0.05 * i as f64, 10f64.powi(i as i32))],
+                )
+            })
+            .collect();
+        let simulated = [
+            samples.iter().map(|s| s.points[0]).collect(),
+            vec![],
+            vec![],
+        ];
+        let d = PermeabilityPorosity {
+            simulated,
+            kozeny_carman: vec![],
+            curves: vec![],
+            unit: "mD".into(),
+            samples,
+        };
+        let svg = permeability_porosity(&d).unwrap();
+        let t = texts(&svg);
+        for i in 0..=MAX_NAMED {
+            assert!(t.contains(&(i + 1).to_string()), "{t:?}");
+            assert!(t.contains(&format!("{}\u{2002}core {i}", i + 1)), "{t:?}");
+        }
+        assert!(!svg.starts_with(&format!("<svg width=\"{}\" height=\"{}\"", SIZE.0, SIZE.1)));
+    }
 
     #[test]
     fn log_range_spans_whole_decades() {
