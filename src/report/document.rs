@@ -299,6 +299,24 @@ pub fn file_id(name: &str) -> String {
         .collect()
 }
 
+/// Where a speed map's plane lies, in the units of the map's axes: "x = 24 voxels (150 µm)"
+/// for a title (the distance of the plane's first face from the sample's, as the map's axes
+/// count from 0), and ", spanning 150–156.3 µm" for the caption; voxels only without a voxel
+/// size.
+fn plane_position(axis: Axis, index: usize, voxel_m: Option<f64>) -> (String, String) {
+    let at = format!("{axis} = {index} voxels");
+    match voxel_m {
+        Some(dx) => {
+            let um = |i: usize| plots::significant(i as f64 * dx * 1e6, 4);
+            (
+                format!("{at} ({} µm)", um(index)),
+                format!(", spanning {}–{} µm", um(index), um(index + 1)),
+            )
+        }
+        None => (at, String::new()),
+    }
+}
+
 fn sample_section(e: &Entry) -> Result<SampleSection> {
     let mut plots = Vec::new();
     if let Some(s) = &e.result.flow_snapshot {
@@ -315,10 +333,19 @@ fn sample_section(e: &Entry) -> Result<SampleSection> {
             )?,
         });
         let m = &s.mid_plane;
+        let (title, span) = plane_position(s.axis, m.plane_index, e.result.voxel_size_m);
+        let length = e.result.input.shape[s.axis.index()];
         plots.push(Plot {
             id: format!("{id}-speed-map"),
-            caption: format!("{}: speed in the cross-section {} = {} (mid-length), flow along {}; grey: solid; blocks of {}×{} voxels.", e.name, s.axis, m.plane_index, s.axis, m.block, m.block),
-            svg: plots::speed_map(m, e.result.voxel_size_m, &format!("{}: speed at {} = {}", e.name, s.axis, m.plane_index))?,
+            caption: format!(
+                "{}: speed in the cross-section {} = voxel {} of {length} (counted from 0 at the sample's first face{span}; mid-length), flow along {}; grey: solid; blocks of {}×{} voxels.",
+                e.name, s.axis, m.plane_index, s.axis, m.block, m.block
+            ),
+            svg: plots::speed_map(
+                m,
+                e.result.voxel_size_m,
+                &format!("{}: speed at {title}", e.name),
+            )?,
         });
     }
     Ok(SampleSection {
@@ -577,6 +604,22 @@ mod tests {
         assert!(m.contains("Time steps per solve (one flow axis"), "{m}");
         assert!(m.contains("): 300 to 400."), "{m}");
         assert!(!m.contains("700"), "{m}");
+    }
+
+    /// A speed map's plane is placed in voxels and, with a voxel size, in the µm of its axes.
+    #[test]
+    fn plane_position_in_voxels_and_micrometres() {
+        assert_eq!(
+            plane_position(Axis::X, 24, Some(6.25e-6)),
+            (
+                "x = 24 voxels (150 µm)".into(),
+                ", spanning 150–156.2 µm".into()
+            )
+        );
+        assert_eq!(
+            plane_position(Axis::Z, 8, None),
+            ("z = 8 voxels".into(), String::new())
+        );
     }
 
     /// Without a voxel size the Kozeny–Carman estimate is still given, in voxel² like k.
