@@ -599,6 +599,21 @@ fn report_is_self_contained_with_table_plots_methods_and_cautions() {
         let svg = std::fs::read_to_string(dir.path().join(f)).unwrap();
         assert!(svg.starts_with("<svg"), "{f}");
     }
+    // The scatter plots name their points; the speed map places its plane in both units.
+    for plot in ["permeability-porosity", "tortuosity-porosity"] {
+        let svg = std::fs::read_to_string(dir.path().join(format!("report-{plot}.svg"))).unwrap();
+        for name in ["a-cell", "b-slit", "c-cell"] {
+            assert!(
+                svg.contains(&format!(">\n{name}\n<")),
+                "{plot} lacks {name}"
+            );
+        }
+    }
+    let map = std::fs::read_to_string(dir.path().join("report-a-cell-speed-map.svg")).unwrap();
+    assert!(
+        map.contains("a-cell: speed at x = 8 voxels (16 µm)"),
+        "{map}"
+    );
 }
 
 #[test]
@@ -624,6 +639,7 @@ fn report_reads_single_estimate_results_too() {
     let html = std::fs::read_to_string(dir.path().join("r.html")).unwrap();
     // No voxel size: permeability in voxel², map axes in voxels.
     assert!(html.contains("permeability k (voxel²)") && html.contains("y (voxels)"));
+    assert!(html.contains("cell: speed at x = 6 voxels\n"), "{html}");
     let (code, _, stderr) = run_in(dir.path(), &["report", "cell.json"]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("--out"), "{stderr}");
