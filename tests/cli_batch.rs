@@ -669,3 +669,19 @@ fn report_reads_single_estimate_results_too() {
 fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
     write_mask_with(dir, name, mask, TiffCompression::None)
 }
+
+/// report given a file that is not JSON (the batch's summary.csv, say) names it and says what
+/// report takes, instead of a bare parser message.
+#[test]
+fn report_of_a_non_json_file_says_what_it_takes() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("summary.csv"), "name,k_mD\na,1\n").unwrap();
+    let (code, _, stderr) = run_in(dir.path(), &["report", "summary.csv", "--out", "r.html"]);
+    assert_eq!(code, 3, "{stderr}");
+    assert!(
+        stderr.contains("summary.csv: not a voxperm result file: it is not JSON")
+            && stderr.contains("give result .json files or a batch's results folder"),
+        "{stderr}"
+    );
+    assert!(!dir.path().join("r.html").exists());
+}

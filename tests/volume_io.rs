@@ -501,6 +501,16 @@ fn missing_path_is_bad_input() {
         "nowhere.tif",
         "no such file or folder",
     );
+    // A file named with a trailing slash (or as a folder on the way): said in words, not as
+    // the system's "Not a directory (os error 20)".
+    let file = dir.path().join("stack.tif");
+    fs::write(&file, b"x").unwrap();
+    let through = std::path::PathBuf::from(format!("{}/", file.display()));
+    assert_bad_input(
+        load(&through, None, &limits()),
+        "stack.tif/",
+        "a part of the path before a / is a file, not a folder",
+    );
 }
 
 #[test]
@@ -580,7 +590,11 @@ fn colour_images_are_refused() {
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("rgb.tif");
     write_page::<RGB8>(&path, 2, 2, &[0; 12], Compression::Uncompressed);
-    assert_bad_input(load(&path, None, &limits()), "rgb.tif", "grey");
+    assert_bad_input(
+        load(&path, None, &limits()),
+        "rgb.tif",
+        "page 1 (z = 0): 8-bit RGB colour: not supported; convert the image to one grey channel",
+    );
 }
 
 fn slice_folder_with_odd_one(odd: impl FnOnce(&Path)) -> (tempfile::TempDir, std::path::PathBuf) {
@@ -650,6 +664,14 @@ fn raw_size_mismatch_gives_both_numbers() {
         load(&path, Some(&spec), &limits()),
         "short.raw",
         "2000 bytes",
+    );
+    // A TIFF given a raw layout: the size cannot match, and the message says what the file is.
+    let tiff = dir.path().join("stack.tif");
+    write_page::<Gray8>(&tiff, 4, 4, &[0; 16], Compression::Uncompressed);
+    assert_bad_input(
+        load(&tiff, Some(&spec), &limits()),
+        "stack.tif",
+        "the file is a TIFF (its first bytes say so): leave out --raw-shape",
     );
 }
 

@@ -186,8 +186,16 @@ pub struct ResultView {
 impl ResultView {
     /// Parses result JSON text; `path` names the file in errors.
     pub fn parse(text: &str, path: &Path) -> Result<ResultView> {
-        serde_json::from_str(text)
-            .map_err(|e| Error::bad_input(path, format!("not a voxperm result file: {e}")))
+        serde_json::from_str(text).map_err(|e| {
+            let why = if e.is_syntax() || e.is_eof() {
+                format!(
+                    "not a voxperm result file: it is not JSON ({e}); give result .json files or a batch's results folder"
+                )
+            } else {
+                format!("not a voxperm result file: {e}")
+            };
+            Error::bad_input(path, why)
+        })
     }
 
     /// Reads and parses a result file.

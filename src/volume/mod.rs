@@ -271,6 +271,12 @@ pub fn load(path: &Path, raw: Option<&RawSpec>, limits: &ReadLimits) -> Result<V
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
             return Err(Error::bad_input(path, "no such file or folder"));
         }
+        Err(e) if e.kind() == std::io::ErrorKind::NotADirectory => {
+            return Err(Error::bad_input(
+                path,
+                "a part of the path before a / is a file, not a folder (a / after a file name?)",
+            ));
+        }
         Err(e) => return Err(Error::bad_input(path, one_line(&e.to_string()))),
     };
     if meta.is_dir() {

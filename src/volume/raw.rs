@@ -134,11 +134,19 @@ pub fn read_raw(path: &Path, spec: &RawSpec, limits: &ReadLimits) -> Result<Volu
     let actual = file.metadata().map_err(io_err)?.len();
     if expected != Some(actual) {
         let expected = expected.map_or_else(|| "more than 2^64".to_string(), |e| e.to_string());
+        let mut head = [0u8; 4];
+        let tiff = file.read_exact(&mut head).is_ok()
+            && matches!(&head, b"II*\0" | b"MM\0*" | b"II+\0" | b"MM\0+");
         return Err(Error::bad_input(
             path,
             format!(
-                "raw file holds {actual} bytes but shape {nx}x{ny}x{nz} of {} needs {expected} bytes",
-                spec.kind
+                "raw file holds {actual} bytes but shape {nx}x{ny}x{nz} of {} needs {expected} bytes{}",
+                spec.kind,
+                if tiff {
+                    "; the file is a TIFF (its first bytes say so): leave out --raw-shape, --raw-type and --raw-endian"
+                } else {
+                    ""
+                }
             ),
         ));
     }

@@ -264,10 +264,26 @@ pub(crate) fn page_info(dec: &mut TiffDecoder, path: &Path, z: usize) -> Result<
             ));
         }
         (other, _) => {
+            use tiff::ColorType as T;
+            let what = match other {
+                T::Multiband {
+                    bit_depth,
+                    num_samples,
+                } => format!("{num_samples} {bit_depth}-bit samples per pixel (several channels)"),
+                T::RGB(b) => format!("{b}-bit RGB colour"),
+                T::RGBA(b) => format!("{b}-bit RGB colour with alpha"),
+                T::GrayA(b) => format!("{b}-bit grey with alpha"),
+                T::Palette(b) => format!("{b}-bit palette colour"),
+                T::CMYK(b) | T::CMYKA(b) => format!("{b}-bit CMYK colour"),
+                T::YCbCr(b) => format!("{b}-bit YCbCr colour"),
+                T::Lab(b) => format!("{b}-bit CIE L*a*b* colour"),
+                T::Gray(b) => format!("{b}-bit grey"),
+                other => format!("colour type {other:?}"),
+            };
             return Err(Error::bad_input(
                 path,
                 format!(
-                    "{}: colour type {other:?} is not supported; convert the image to one grey channel",
+                    "{}: {what}: not supported; convert the image to one grey channel",
                     page_label(z)
                 ),
             ));
