@@ -286,6 +286,14 @@ fn manifest_defaults_overrides_and_relative_paths() {
         None,
     )
     .unwrap();
+    // A file that records its own voxel size, 3 µm, which "file" brings back under the default.
+    write_tiff_stack(
+        &m.join("scans").join("c.tif"),
+        &Volume::from_mask(&sphere_cell(12, 4.0), 0, 255),
+        TiffCompression::None,
+        Some(3e-6),
+    )
+    .unwrap();
     std::fs::write(
         m.join("plan.toml"),
         r#"
@@ -302,6 +310,10 @@ path = "scans/b.tif"
 voxel_size = "1um"
 pore_label = 7
 axis = "all"
+
+[[sample]]
+path = "scans/c.tif"
+voxel_size = "file"
 "#,
     )
     .unwrap();
@@ -329,6 +341,12 @@ axis = "all"
     assert_eq!(b["input"]["segmentation"], "pore labels 7");
     assert_eq!(b["settings"]["sides"], "periodic");
     assert!((b["porosity"].as_f64().unwrap() - 4.0 / 5.0).abs() < 1e-12);
+    let c = json(&dir.path().join("out/c.json"));
+    assert!(
+        (c["voxel_size_m"].as_f64().unwrap() - 3e-6).abs() < 1e-12,
+        "{}",
+        c["voxel_size_m"]
+    );
 }
 
 #[test]

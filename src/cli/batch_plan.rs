@@ -134,7 +134,11 @@ impl Entry {
             }
         };
         set(&mut i.pore, &self.pore);
-        set(&mut i.voxel_size, &self.voxel_size);
+        // "file": the file's own voxel size again, under a default set further out.
+        match self.voxel_size.as_deref() {
+            Some(v) if v.trim().eq_ignore_ascii_case("file") => i.voxel_size = None,
+            _ => set(&mut i.voxel_size, &self.voxel_size),
+        }
         set(&mut i.crop, &self.crop);
         set(&mut i.raw_shape, &self.raw_shape);
         set(&mut i.raw_type, &self.raw_type);
