@@ -1143,6 +1143,44 @@ fn bgk_runs_say_their_permeability_depends_on_tau() {
     }
 }
 
+/// The resolution warning reads 4φ/S both ways: a slit 4 voxels wide (hydraulic diameter
+/// 2h = 8, White, Viscous Fluid Flow) is warned about although the isotropic reading says 12;
+/// one 16 wide is not.
+#[test]
+fn thin_flat_channels_get_the_resolution_warning() {
+    let dir = tempfile::tempdir().unwrap();
+    for (gap, expected) in [(4, true), (16, false)] {
+        let sample = write_mask(
+            dir.path(),
+            &format!("slit{gap}.tif"),
+            &slit(Axis::Z, gap, 4),
+        );
+        let j = dir.path().join(format!("slit{gap}.json"));
+        let (code, _, stderr) = run(&[
+            "estimate",
+            sample.to_str().unwrap(),
+            "--periodic",
+            "-q",
+            "--json",
+            j.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{stderr}");
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+        let warning = v["warnings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter_map(|w| w.as_str())
+            .find(|w| w.contains("pores are resolved by only"))
+            .map(str::to_string);
+        assert_eq!(warning.is_some(), expected, "gap {gap}: {}", v["warnings"]);
+        if let Some(w) = warning {
+            assert!(w.contains("about 8.0 to 12.0 voxels"), "{w}");
+        }
+    }
+}
+
 /// A tensor solved with sealed sides carries a warning that its off-diagonal terms come from
 /// the walls (no net flow can cross the forced axis); with periodic sides it does not.
 #[test]

@@ -338,9 +338,13 @@ fn solve_warnings(
         // (and equal inlet and outlet faces) no net flow crosses the forced axis.
         warnings.push("the tensor's off-diagonal terms are set by the sealed sides, not by the material: walls along the flow let no net flow cross it, so they come out near zero (periodic ends) or as a boundary artefact (mirror or buffer ends), and the principal directions are the grid axes; for the full tensor use --sides periodic, on a sample many pores wide".into());
     }
-    if dh < MIN_PORE_DIAMETER_VOXELS {
+    // The face count is exact for flat walls along the grid and 1.5× the area of curved ones
+    // (geometry/surface.rs), so 4φ/S spans the two readings; the warning goes by the lower,
+    // since a flat-walled channel of 8 voxels is as coarse as it reads (+3 % on a slit).
+    let dh_flat = 4.0 * porosity / surface.face_area_per_bulk.max(f64::MIN_POSITIVE);
+    if dh_flat < MIN_PORE_DIAMETER_VOXELS {
         warnings.push(format!(
-            "pores are resolved by only about {dh:.1} voxels (hydraulic diameter 4φ/S); expect a resolution error of several %: image at a finer voxel size, or compare with the sample resampled coarser to see the trend"
+            "pores are resolved by only about {dh_flat:.1} to {dh:.1} voxels (hydraulic diameter 4φ/S: the lower figure for flat walls along the grid, the higher for curved walls); expect a resolution error of several %: image at a finer voxel size, or compare with the sample resampled coarser to see the trend"
         ));
     }
     warnings
