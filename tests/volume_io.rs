@@ -706,7 +706,7 @@ fn huge_claimed_size_is_refused_before_allocating() {
         assert_bad_input(
             load(&path, None, &ReadLimits::new(limit)),
             "huge.tif",
-            "header claims 1 page(s) of 100000x100000 u8 (9.31 GiB of samples), more than the file's",
+            "page 1 (z = 0): the header claims 9.31 GiB of samples, more than its 134 stored bytes can hold (uncompressed)",
         );
     }
     // Claims whose byte count is near or beyond 2^64: a size, not an overflow or a panic.
@@ -714,13 +714,41 @@ fn huge_claimed_size_is_refused_before_allocating() {
     assert_bad_input(
         load(&path, None, &ReadLimits::new(u64::MAX)),
         "huge.tif",
-        "(over 16 EiB of samples)",
+        "the header claims over 16 EiB of samples",
     );
     fs::write(&path, hostile_header(u32::MAX, u32::MAX, 8, 1, 1)).unwrap();
     assert_bad_input(
         load(&path, None, &ReadLimits::new(u64::MAX)),
         "huge.tif",
-        "more than the file's",
+        "stored bytes can hold",
+    );
+    // Compressed pages that all point to one strip: each page's claim fits its strip at
+    // Deflate's largest expansion (1 MiB from 2000 bytes), but the pages' strips add up to
+    // far more than the file, which would otherwise admit any number of pages.
+    fs::write(&path, common::shared_strip_stack(1024, 1024, 64, 8, 2000)).unwrap();
+    assert_bad_input(
+        load(&path, None, &ReadLimits::new(u64::MAX)),
+        "huge.tif",
+        "the pages' strips add up to 10000 bytes, more than the file's 9304",
+    );
+    // One such page per file of a slice folder passes every file's check; the total is held
+    // against the limit, and garbage then fails to decode: bad input, nothing large reserved.
+    let shared = dir.path().join("shared");
+    fs::create_dir(&shared).unwrap();
+    for i in 0..4 {
+        let bytes = common::shared_strip_stack(1024, 1024, 1, 8, 2000);
+        fs::write(shared.join(format!("s{i}.tif")), bytes).unwrap();
+    }
+    assert!(matches!(
+        load(&shared, None, &ReadLimits::new(u64::MAX)),
+        Err(Error::BadInput { .. })
+    ));
+    // Deflate cannot give 1 MiB from 500 bytes: refused per page.
+    fs::write(&path, common::shared_strip_stack(1024, 1024, 1, 8, 500)).unwrap();
+    assert_bad_input(
+        load(&path, None, &ReadLimits::new(u64::MAX)),
+        "huge.tif",
+        "even at 1032:1, the most its compression gives",
     );
     // A header the file can hold is then held against the memory limit, before allocating.
     let vol = volume_of(RawType::U16, [64, 64, 8], 7);
@@ -753,7 +781,7 @@ fn huge_claimed_size_is_refused_before_allocating() {
     assert_bad_input(
         load(&folder, None, &ReadLimits::new(u64::MAX)),
         "s1.tif",
-        "header claims a 100000x100000 u8 page",
+        "page 1: the header claims 9.31 GiB of samples",
     );
 }
 

@@ -80,13 +80,28 @@ impl VoxelData {
         }
     }
 
-    /// An empty buffer of `kind` with room for `n` voxels (the caller has checked `n`).
-    pub(crate) fn with_capacity(kind: RawType, n: usize) -> VoxelData {
-        match kind {
-            RawType::U8 => VoxelData::U8(Vec::with_capacity(n)),
-            RawType::U16 => VoxelData::U16(Vec::with_capacity(n)),
-            RawType::F32 => VoxelData::F32(Vec::with_capacity(n)),
+    /// An empty buffer of `kind` with room for `n` voxels (the caller has checked `n` against
+    /// the file and the memory limit). An allocation the system refuses all the same (a
+    /// `--max-memory` above what the machine has) is an error naming `path`, not an abort.
+    pub(crate) fn try_with_capacity(kind: RawType, n: usize, path: &Path) -> Result<VoxelData> {
+        fn reserve<T>(n: usize) -> std::result::Result<Vec<T>, std::collections::TryReserveError> {
+            let mut v = Vec::new();
+            v.try_reserve_exact(n)?;
+            Ok(v)
         }
+        let refused = |_| Error::TooLarge {
+            what: format!(
+                "{} ({n} voxels of {kind}): the system refused the memory",
+                path.display()
+            ),
+            needed_bytes: (n as u64).saturating_mul(kind.bytes()),
+            limit_bytes: available_memory_bytes(),
+        };
+        Ok(match kind {
+            RawType::U8 => VoxelData::U8(reserve(n).map_err(refused)?),
+            RawType::U16 => VoxelData::U16(reserve(n).map_err(refused)?),
+            RawType::F32 => VoxelData::F32(reserve(n).map_err(refused)?),
+        })
     }
 }
 
@@ -297,6 +312,22 @@ pub fn load(path: &Path, raw: Option<&RawSpec>, limits: &ReadLimits) -> Result<V
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A buffer the system cannot give is an error naming the file, not an abort.
+    #[test]
+    fn a_refused_buffer_is_an_error() {
+        let r = VoxelData::try_with_capacity(RawType::U16, usize::MAX / 2, Path::new("big.tif"));
+        match r {
+            Err(Error::TooLarge { what, .. }) => assert!(what.contains("big.tif"), "{what}"),
+            other => panic!("expected TooLarge, got {:?}", other.map(|d| d.len())),
+        }
+        assert_eq!(
+            VoxelData::try_with_capacity(RawType::U8, 10, Path::new("a"))
+                .unwrap()
+                .len(),
+            0
+        );
+    }
 
     #[test]
     fn new_checks_length() {

@@ -9,8 +9,8 @@ use tiff::decoder::DecodingResult;
 
 use super::limits::{ReadLimits, bytes_for};
 use super::tiff_read::{
-    check_claim, decode_page, file_voxel_size, open, page_compressed, page_info, page_limits,
-    stored_bytes,
+    check_claim, check_total_stored, decode_page, file_voxel_size, open, page_info, page_limits,
+    page_storage, stored_bytes,
 };
 use super::{Volume, VoxelData, one_line};
 use crate::{Error, Result};
@@ -79,13 +79,9 @@ pub fn read_slice_folder(folder: &Path, limits: &ReadLimits) -> Result<Volume> {
     for path in &files {
         let mut dec = open(path)?;
         let info = page_info(&mut dec, path, 0)?;
-        check_claim(
-            path,
-            &format!("a {} page", info.describe()),
-            info.bytes(),
-            stored_bytes(path),
-            page_compressed(&mut dec),
-        )?;
+        let storage = page_storage(&mut dec);
+        check_claim(path, "page 1", info.bytes(), &storage, stored_bytes(path))?;
+        check_total_stored(path, storage.stored, stored_bytes(path))?;
         if info != first {
             return Err(Error::bad_input(
                 path,
@@ -108,7 +104,8 @@ pub fn read_slice_folder(folder: &Path, limits: &ReadLimits) -> Result<Volume> {
     limits.check(what, bytes_for(shape, first.kind.bytes()))?;
 
     // Pass 2: decode. The limit check bounds the total, so the products fit in usize.
-    let mut data = VoxelData::with_capacity(first.kind, shape[0] * shape[1] * shape[2]);
+    let mut data =
+        VoxelData::try_with_capacity(first.kind, shape[0] * shape[1] * shape[2], folder)?;
     let mut buf = DecodingResult::U8(Vec::new());
     for path in &files {
         let mut dec = open(path)?.with_limits(page_limits(&first, limits));

@@ -50,50 +50,94 @@ impl PageInfo {
 /// hostile header can make us read per page.
 const MAX_TAG_BYTES: usize = 8 << 20;
 
-/// Most decoded bytes one stored byte can give under any compression the reader accepts, to
-/// bound what a header may claim before anything is allocated. LZW codes have at least 9 bits
-/// and stand for at most 4096 bytes (a string table of 4096 entries: TIFF 6.0, section 13), so
-/// at most 4096 × 8/9 ≈ 3641 bytes per stored byte; Deflate gives at most 1032 (zlib's own
-/// documentation of its limits); PackBits at most 64 (a 2-byte run of 128: TIFF 6.0,
-/// section 9). All three from memory; 4096 bounds them.
-const MAX_EXPANSION: u64 = 4096;
-
-/// Whether the current page is stored compressed (a Compression tag other than 1, none).
-pub(crate) fn page_compressed(dec: &mut TiffDecoder) -> bool {
-    dec.find_tag_unsigned::<u16>(Tag::Compression)
-        .ok()
-        .flatten()
-        .is_some_and(|c| c != 1)
+/// Most decoded bytes one stored byte can give under the page's compression, to bound what a
+/// header may claim before anything is allocated (all from memory):
+/// - none: 1;
+/// - PackBits: 64 (a 2-byte run of 128: TIFF 6.0, section 9);
+/// - Deflate: 1032 (zlib's own documentation of its limits);
+/// - LZW: codes have at least 9 bits and stand for at most 4096 bytes (a string table of 4096
+///   entries: TIFF 6.0, section 13), so at most 4096 × 8/9 ≈ 3641; 4096 is used;
+/// - anything else the decoder takes (JPEG): 4096, more than its block coding can reach.
+fn max_expansion(compression: Option<u16>) -> u64 {
+    match compression {
+        None | Some(1) => 1,
+        Some(32773) => 64,
+        Some(8) | Some(32946) => 1032,
+        _ => 4096,
+    }
 }
 
-/// Refuses pages whose claimed decoded size (`claimed` bytes; None: beyond 64 bits) the
-/// `stored` bytes of the file cannot hold, uncompressed or at the largest expansion of any
-/// codec: a corrupt or hostile header, which must fail as bad input before the size is held
-/// against the memory limit (raising the limit would only reach the allocation).
+/// Where the current page's samples are stored: the sum of its strip (or tile) byte counts,
+/// and the most its compression can expand them ([`max_expansion`]).
+pub(crate) struct PageStorage {
+    pub stored: u64,
+    pub ratio: u64,
+}
+
+/// Reads the current page's [`PageStorage`]. A missing or unreadable count reads as 0, which
+/// no page passes [`check_claim`] with.
+pub(crate) fn page_storage(dec: &mut TiffDecoder) -> PageStorage {
+    let mut counts = |tag| {
+        dec.find_tag_unsigned_vec::<u64>(tag)
+            .ok()
+            .flatten()
+            .map(|v| v.iter().fold(0u64, |a, &b| a.saturating_add(b)))
+    };
+    let stored = match counts(Tag::StripByteCounts) {
+        Some(n) => n,
+        None => counts(Tag::TileByteCounts).unwrap_or(0),
+    };
+    let compression = dec
+        .find_tag_unsigned::<u16>(Tag::Compression)
+        .ok()
+        .flatten();
+    PageStorage {
+        stored,
+        ratio: max_expansion(compression),
+    }
+}
+
+/// Refuses a page whose claimed decoded size (`claimed` bytes; None: beyond 64 bits) its
+/// stored bytes (at most what is left of the file, `file_bytes`) cannot hold at its
+/// compression's largest expansion: a corrupt or hostile header, which must fail as bad input
+/// before the size is held against the memory limit (raising the limit would only reach the
+/// allocation).
 pub(crate) fn check_claim(
     path: &Path,
-    pages: &str,
+    page: &str,
     claimed: Option<u64>,
-    stored: u64,
-    compressed: bool,
+    storage: &PageStorage,
+    file_bytes: u64,
 ) -> Result<()> {
-    let ratio = if compressed { MAX_EXPANSION } else { 1 };
-    let room = stored.saturating_mul(ratio);
+    let stored = storage.stored.min(file_bytes);
     match claimed {
-        Some(c) if c <= room => Ok(()),
+        Some(c) if c <= stored.saturating_mul(storage.ratio) => Ok(()),
         _ => Err(Error::bad_input(
             path,
             format!(
-                "header claims {pages} ({} of samples), more than the file's {stored} bytes can hold{}: the file is corrupt or cut short",
+                "{page}: the header claims {} of samples, more than its {stored} stored bytes can hold{}: the file is corrupt or cut short",
                 claimed.map_or("over 16 EiB".into(), crate::error::human_bytes),
-                if compressed {
-                    " at any compression"
-                } else {
-                    " (uncompressed)"
+                match storage.ratio {
+                    1 => " (uncompressed)".to_string(),
+                    r => format!(" even at {r}:1, the most its compression gives"),
                 }
             ),
         )),
     }
+}
+
+/// Refuses pages whose strips add up to more than the file holds (strips shared between
+/// pages, or counts that lie): else one small strip could stand for every page of a stack.
+pub(crate) fn check_total_stored(path: &Path, total: u64, file_bytes: u64) -> Result<()> {
+    if total <= file_bytes {
+        return Ok(());
+    }
+    Err(Error::bad_input(
+        path,
+        format!(
+            "the pages' strips add up to {total} bytes, more than the file's {file_bytes}: the header is corrupt"
+        ),
+    ))
 }
 
 /// Length of the file at `path` in bytes (0 if it cannot be read; the decoder has opened it).
@@ -113,13 +157,21 @@ pub fn read_tiff_stack(path: &Path, limits: &ReadLimits) -> Result<Volume> {
     let first = page_info(&mut dec, path, 0)?;
     check_not_hyperstack(&mut dec, path)?;
     let voxel_size = file_voxel_size(&mut dec, path);
+    let file_bytes = stored_bytes(path);
+    let mut total_stored = 0u64;
+    let mut claim = |dec: &mut TiffDecoder, z: usize, info: &PageInfo| -> Result<()> {
+        let storage = page_storage(dec);
+        check_claim(path, &page_label(z), info.bytes(), &storage, file_bytes)?;
+        total_stored = total_stored.saturating_add(storage.stored);
+        check_total_stored(path, total_stored, file_bytes)
+    };
+    claim(&mut dec, 0, &first)?;
     let mut pages = 1usize;
-    let mut compressed = page_compressed(&mut dec);
     while dec.more_images() {
         dec.next_image()
             .map_err(|e| tiff_error(path, Some(pages), e))?;
         let info = page_info(&mut dec, path, pages)?;
-        compressed |= page_compressed(&mut dec);
+        claim(&mut dec, pages, &info)?;
         if info != first {
             return Err(Error::bad_input(
                 path,
@@ -141,19 +193,11 @@ pub fn read_tiff_stack(path: &Path, limits: &ReadLimits) -> Result<Volume> {
         first.height,
         first.kind
     );
-    let claimed = bytes_for(shape, first.kind.bytes());
-    check_claim(
-        path,
-        &format!("{pages} page(s) of {}", first.describe()),
-        claimed,
-        stored_bytes(path),
-        compressed,
-    )?;
-    limits.check(what, claimed)?;
+    limits.check(what, bytes_for(shape, first.kind.bytes()))?;
 
     // Pass 2: decode. The check above bounds the total, so the products fit in usize.
     let page_voxels = shape[0] * shape[1];
-    let mut data = VoxelData::with_capacity(first.kind, page_voxels * pages);
+    let mut data = VoxelData::try_with_capacity(first.kind, page_voxels * pages, path)?;
     let mut dec = open(path)?.with_limits(page_limits(&first, limits));
     let mut buf = DecodingResult::U8(Vec::new());
     for z in 0..pages {

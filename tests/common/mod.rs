@@ -120,3 +120,52 @@ pub fn hostile_header(
     }
     b
 }
+
+/// A little-endian TIFF of `pages` IFDs that all point to one strip of `strip` garbage bytes,
+/// each claiming a `width` x `height` 8-bit page stored with TIFF compression code
+/// `compression`: a header whose pages share their data, so per page the claim can look
+/// plausible while the stack claims far more than the file holds. Layout as for
+/// [`hostile_header`].
+pub fn shared_strip_stack(
+    width: u32,
+    height: u32,
+    pages: u32,
+    compression: u16,
+    strip: u32,
+) -> Vec<u8> {
+    const SHORT: u16 = 3;
+    const LONG: u16 = 4;
+    let entries_for = |offset: u32| -> [(u16, u16, u32); 9] {
+        [
+            (256, LONG, width),
+            (257, LONG, height),
+            (258, SHORT, 8),
+            (259, SHORT, u32::from(compression)),
+            (262, SHORT, 1),
+            (273, LONG, offset),
+            (277, SHORT, 1),
+            (278, LONG, height),
+            (279, LONG, strip),
+        ]
+    };
+    let ifd_len = 2 + 12 * 9 + 4;
+    let strip_at = 8 + pages * ifd_len;
+    let mut b = Vec::new();
+    b.extend_from_slice(b"II");
+    b.extend_from_slice(&42u16.to_le_bytes());
+    b.extend_from_slice(&8u32.to_le_bytes());
+    for p in 0..pages {
+        let start = 8 + p * ifd_len;
+        b.extend_from_slice(&9u16.to_le_bytes());
+        for (tag, ty, value) in entries_for(strip_at) {
+            b.extend_from_slice(&tag.to_le_bytes());
+            b.extend_from_slice(&ty.to_le_bytes());
+            b.extend_from_slice(&1u32.to_le_bytes());
+            b.extend_from_slice(&value.to_le_bytes());
+        }
+        let next = if p + 1 < pages { start + ifd_len } else { 0 };
+        b.extend_from_slice(&next.to_le_bytes());
+    }
+    b.extend((0..strip).map(|i| (i * 7 + 3) as u8));
+    b
+}
