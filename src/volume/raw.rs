@@ -222,11 +222,25 @@ fn read_samples<const N: usize>(
 ///   8-bit labels read two voxels at a time;
 /// - one value in every second voxel (every fourth for u8) while the others vary: the constant
 ///   high (or low) part of wider samples, i.e. 16-bit data read as u8, or 32-bit as u16 or u8.
-///   A structure that repeats exactly every 2 or 4 voxels in file order (plates across x at
-///   that spacing: synthetic images only) shows the same sign and gets the warning too.
-pub fn wrong_type_sign(data: &VoxelData) -> Option<String> {
+///
+/// Plates across x every 2 or 4 voxels (synthetic slits) show the second sign too, but every
+/// x-row of such an image is the same (`nx` is the row length as read); rows of a wider
+/// sample read narrower are halves of different rows, so an image whose rows all repeat is
+/// taken as what it says.
+pub fn wrong_type_sign(data: &VoxelData, nx: usize) -> Option<String> {
     const MIN_VOXELS: usize = 64;
+    fn rows_repeat<T: PartialEq>(v: &[T], nx: usize) -> bool {
+        nx > 0 && v.len() > nx && v[nx..].iter().zip(v).all(|(a, b)| a == b)
+    }
     if data.len() < MIN_VOXELS {
+        return None;
+    }
+    let repeats = match data {
+        VoxelData::U8(v) => rows_repeat(v, nx),
+        VoxelData::U16(v) => rows_repeat(v, nx),
+        VoxelData::F32(v) => rows_repeat(v, nx),
+    };
+    if repeats {
         return None;
     }
     match data {
@@ -334,24 +348,32 @@ mod tests {
         let scaled: Vec<u8> = l.iter().map(|&b| b * 255).collect();
         let wide: Vec<u8> = l.iter().flat_map(|&b| (b as u16).to_le_bytes()).collect();
         let float: Vec<u8> = l.iter().flat_map(|&b| (b as f32).to_le_bytes()).collect();
+        // Row lengths as a wrong type reads them: the 16-voxel rows halved or doubled.
         let cases = [
-            (VoxelData::U16(u16_of(&l)), "pairs two bytes from {0, 1}"),
+            (VoxelData::U16(u16_of(&l)), 8, "pairs two bytes from {0, 1}"),
             (
                 VoxelData::U16(u16_of(&scaled)),
+                8,
                 "pairs two bytes from {0, 255}",
             ),
             (
                 VoxelData::U8(wide.clone()),
+                32,
                 "every second voxel in file order is 0",
             ),
-            (VoxelData::U16(u16_of(&float)), "as 32-bit data read as u16"),
+            (
+                VoxelData::U16(u16_of(&float)),
+                32,
+                "as 32-bit data read as u16",
+            ),
             (
                 VoxelData::U8(float),
+                64,
                 "every fourth voxel in file order is 0",
             ),
         ];
-        for (data, sign) in cases {
-            let got = wrong_type_sign(&data).unwrap_or_default();
+        for (data, nx, sign) in cases {
+            let got = wrong_type_sign(&data, nx).unwrap_or_default();
             assert!(got.contains(sign), "{sign}: got '{got}'");
         }
     }
@@ -368,6 +390,13 @@ mod tests {
         // Plates across x every third voxel: a value repeats at a fixed spacing, but not at
         // the spacing of a wider sample.
         let plates: Vec<u8> = (0..4096).map(|i| (i % 3 == 0) as u8 * 255).collect();
+        // Slits across x every 2 and 4 voxels (`voxperm synth slits --normal x`): one value
+        // in every second or fourth voxel, but every row the same.
+        let slits = |period: usize, gap: usize| -> Vec<u8> {
+            (0..4096)
+                .map(|i| if i % 16 % period < gap { 0 } else { 255 })
+                .collect()
+        };
         let cases = [
             VoxelData::U8(l.clone()),
             VoxelData::U16(l.iter().map(|&b| b as u16 * 3).collect()),
@@ -375,10 +404,14 @@ mod tests {
             VoxelData::U16(l.iter().map(|&b| b as u16 * 65535).collect()),
             VoxelData::U16(grey),
             VoxelData::U8(plates),
+            VoxelData::U8(slits(2, 1)),
+            VoxelData::U8(slits(4, 1)),
+            VoxelData::U8(slits(4, 2)),
+            VoxelData::U8(slits(4, 3)),
             VoxelData::F32(l.iter().map(|&b| b as f32).collect()),
         ];
         for data in cases {
-            assert_eq!(wrong_type_sign(&data), None, "{:?}", data.kind());
+            assert_eq!(wrong_type_sign(&data, 16), None, "{:?}", data.kind());
         }
     }
 }

@@ -55,10 +55,9 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
     let mut doubts: Vec<String> = spec
         .raw
         .as_ref()
-        .and_then(|_| super::raw::wrong_type_sign(&vol.data))
+        .and_then(|_| super::raw::wrong_type_sign(&vol.data, vol.shape[0]))
         .into_iter()
         .collect();
-    let zero_one = spec.default_segmentation && only_zero_and_one(&vol.data);
     let mut crop_origin = [0; 3];
     let mut cropped = None;
     if let Some(c) = &spec.crop {
@@ -67,6 +66,8 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
         vol = crop(&vol, &c);
         cropped = Some(c);
     }
+    // After the crop: the porosities the warning gives are the crop's.
+    let zero_one = spec.default_segmentation && only_zero_and_one(&vol.data);
     let file_voxel_size = vol.voxel_size.clone();
     let mut overridden_voxel_size = None;
     if let Some(m) = spec.voxel_size_m {
