@@ -30,8 +30,13 @@ fn check_quick_passes_every_case() {
             r["case"]
         );
         let err = r["error"].as_f64().unwrap();
+        let expected = r["expected_error"].as_f64().unwrap();
         let tol = r["tolerance"].as_f64().unwrap();
-        assert!(err.abs() <= tol, "{}: {err} vs {tol}", r["case"]);
+        assert!(
+            (err - expected).abs() <= tol,
+            "{}: {err} vs {expected} ± {tol}",
+            r["case"]
+        );
         assert!(r["source"].as_str().is_some_and(|s| !s.is_empty()));
         // Every case names its source; values recalled from memory say so in the table.
         if r["from_memory"].as_bool().unwrap() {
@@ -52,17 +57,20 @@ fn check_quick_passes_every_case() {
 
 #[test]
 fn a_case_outside_its_tolerance_fails() {
-    // The slit's nodal flux exceeds h²/12 by 1/(2N²), 1.389 % at N = 6, up to round-off
-    // (about 1e-7): a tolerance just below that must fail, one just above pass.
+    // The slit's nodal flux exceeds h²/12 by exactly 1/(2N²), 1.389 % at N = 6, up to
+    // round-off (about 1e-7), and the check is on the departure from that: 1e-12 must fail,
+    // the real 1e-4 pass.
     let mut slit = cases()
         .into_iter()
         .find(|c| c.name.starts_with("slit"))
         .unwrap();
-    slit.quick = vec![(6, 0.0138)];
+    slit.quick = vec![(6, 1e-12)];
     let row = run_case(&slit, Level::Quick, 1 << 30);
     assert!(row.failure.is_none(), "{:?}", row.failure);
-    assert!(!row.pass, "error {} passed a 1.38 % tolerance", row.error);
-    slit.quick = vec![(6, 0.0140)];
+    assert!(!row.pass, "error {} passed a 1e-12 tolerance", row.error);
+    assert!((row.expected_error - 1.0 / 72.0).abs() < 1e-15);
+    assert!((row.error - 1.0 / 72.0).abs() < 1e-5, "error {}", row.error);
+    slit.quick = vec![(6, 1e-4)];
     assert!(run_case(&slit, Level::Quick, 1 << 30).pass);
 }
 

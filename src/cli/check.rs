@@ -174,7 +174,15 @@ fn render(rows: &[CheckRow], level: Level) -> String {
             pad(&r.source, src_w),
             sig5(r.value),
             pct(r.error, true),
-            format!("±{}", pct(r.tolerance, false)),
+            if r.expected_error == 0.0 {
+                format!("±{}", pct(r.tolerance, false))
+            } else {
+                format!(
+                    "{} ± {}",
+                    pct(r.expected_error, true),
+                    pct(r.tolerance, false)
+                )
+            },
             r.resolution_unit,
         );
         if let Some(f) = &r.failure {
