@@ -314,6 +314,7 @@ axis = "all"
 [[sample]]
 path = "scans/c.tif"
 voxel_size = "file"
+periodic = false
 "#,
     )
     .unwrap();
@@ -342,6 +343,9 @@ voxel_size = "file"
     assert_eq!(b["settings"]["sides"], "periodic");
     assert!((b["porosity"].as_f64().unwrap() - 4.0 / 5.0).abs() < 1e-12);
     let c = json(&dir.path().join("out/c.json"));
+    // periodic = false under a periodic default: the scan default again.
+    assert_eq!(c["settings"]["sides"], "sealed");
+    assert_eq!(c["settings"]["ends"], "mirror");
     assert!(
         (c["voxel_size_m"].as_f64().unwrap() - 3e-6).abs() < 1e-12,
         "{}",

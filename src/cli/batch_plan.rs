@@ -146,8 +146,12 @@ impl Entry {
         if let Some(a) = &self.axis {
             st.axis.clone_from(a);
         }
-        if self.periodic == Some(true) {
-            st.mode = BoundaryMode::PERIODIC;
+        // false: back to the scan default (sealed sides, mirrored ends) under a periodic
+        // default set further out; sides and ends below still refine it.
+        match self.periodic {
+            Some(true) => st.mode = BoundaryMode::PERIODIC,
+            Some(false) => st.mode = BoundaryMode::SCAN,
+            None => {}
         }
         if let Some(s) = &self.sides {
             st.mode.sides = s
