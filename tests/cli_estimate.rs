@@ -1181,6 +1181,41 @@ fn thin_flat_channels_get_the_resolution_warning() {
     }
 }
 
+/// A warm start that diverges (the coarsened image much more open than the fine one: pore
+/// planes every second voxel across the flow, 30 % pore between them) falls back to a start
+/// from rest, says so, and gives that start's answer.
+#[test]
+fn a_diverging_warm_start_falls_back_to_rest() {
+    let dir = tempfile::tempdir().unwrap();
+    let mask = PoreMask::from_fn([32, 32, 32], |x, y, z| {
+        let h = (x * 73_856_093) ^ (y * 19_349_663) ^ (z * 83_492_791);
+        x % 2 == 0 || h % 1000 < 300
+    });
+    let sample = write_mask(dir.path(), "stripes.tif", &mask);
+    let k_of = |extra: &[&str]| {
+        let j = dir.path().join("s.json");
+        let mut args = vec!["estimate", sample.to_str().unwrap(), "-q", "--json"];
+        args.push(j.to_str().unwrap());
+        args.extend_from_slice(extra);
+        let (code, _, stderr) = run(&args);
+        assert_eq!(code, 0, "{extra:?}: {stderr}");
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+        (
+            v["permeability_lattice"].as_f64().unwrap(),
+            v["axes"][0]["note"].clone(),
+        )
+    };
+    let (warm, note) = k_of(&[]);
+    let (cold, _) = k_of(&["--cold-start"]);
+    assert!(
+        note.as_str()
+            .is_some_and(|n| n.starts_with("started from rest: the warm start diverged")),
+        "{note}"
+    );
+    assert_eq!(warm, cold);
+}
+
 /// A tensor solved with sealed sides carries a warning that its off-diagonal terms come from
 /// the walls (no net flow can cross the forced axis); with periodic sides it does not.
 #[test]

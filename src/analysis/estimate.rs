@@ -160,7 +160,20 @@ pub fn estimate_axis(
     };
     let domain = Domain::build(&perc.mask, axis, cfg.mode, cfg.max_memory_bytes)?;
     drop(perc);
-    let field = solve_from(&domain, axis, &cfg.solver, progress, coarse)?;
+    // A start the fine grid cannot hold (the coarsened image far more open than the fine
+    // one, so the rescaled flow is too fast) diverges within the first checks: start again
+    // from rest, which is what the answer must not depend on anyway.
+    let warm = coarse.is_some();
+    let field = match solve_from(&domain, axis, &cfg.solver, progress, coarse) {
+        Err(Error::Diverged { step, reason }) if warm => {
+            note = Some(format!(
+                "started from rest: the warm start diverged at step {step} ({})",
+                reason.split(';').next().unwrap_or_default()
+            ));
+            solve_from(&domain, axis, &cfg.solver, progress, None)?
+        }
+        other => other?,
+    };
     let flow = analyse(&domain, &field, axis);
     let k = flow.permeability;
     let k_m2 = cfg.voxel_size_m.map(|dx| lattice_to_m2(k, dx));
