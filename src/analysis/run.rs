@@ -20,8 +20,17 @@ use crate::volume::{CropSpec, ReadLimits};
 use crate::{Error, Result};
 
 /// Pore (hydraulic) diameter 4φ/S, in voxels, below which results carry a resolution warning:
-/// about ten voxels across a pore for a few-% permeability error (common practice).
+/// about ten voxels across a pore for a few-% permeability error (common practice). Read with
+/// the raw face count as S ([`under_resolved`]).
 pub const MIN_PORE_DIAMETER_VOXELS: f64 = 10.0;
+
+/// Whether a sample whose 4φ/S with the corrected surface is `dh` voxels gets the resolution
+/// warning (and the report's caution): the raw face count, exact for flat walls along the
+/// grid, reads the diameter 2/3 as large (geometry/surface.rs), and that reading must reach
+/// [`MIN_PORE_DIAMETER_VOXELS`].
+pub fn under_resolved(dh: f64) -> bool {
+    dh * crate::geometry::surface::ISOTROPIC_FACE_FACTOR < MIN_PORE_DIAMETER_VOXELS
+}
 
 /// Voxel edges outside this range (metres) are unusual for 3D imaging of porous media, from
 /// nano-CT to medical CT of large cores, and more likely a unit slip: they carry a warning
@@ -341,10 +350,10 @@ fn solve_warnings(
     // The face count is exact for flat walls along the grid and 1.5× the area of curved ones
     // (geometry/surface.rs), so 4φ/S spans the two readings; the warning goes by the lower,
     // since a flat-walled channel of 8 voxels is as coarse as it reads (+3 % on a slit).
-    let dh_flat = 4.0 * porosity / surface.face_area_per_bulk.max(f64::MIN_POSITIVE);
-    if dh_flat < MIN_PORE_DIAMETER_VOXELS {
+    let dh_flat = dh * crate::geometry::surface::ISOTROPIC_FACE_FACTOR;
+    if under_resolved(dh) {
         warnings.push(format!(
-            "pores are resolved by only about {dh_flat:.1} to {dh:.1} voxels (hydraulic diameter 4φ/S: the lower figure for flat walls along the grid, the higher for curved walls); expect a resolution error of several %: image at a finer voxel size, or compare with the sample resampled coarser to see the trend"
+            "pores are resolved by only about {dh_flat:.1} to {dh:.1} voxels (hydraulic diameter 4φ/S: the lower figure for flat walls along the grid, the higher for curved walls); expect a resolution error of several % near ten voxels and more below: image at a finer voxel size, or compare with the sample resampled coarser to see the trend"
         ));
     }
     warnings

@@ -512,12 +512,15 @@ fn cautions(entries: &[Entry]) -> Vec<String> {
         .filter_map(|e| {
             e.result
                 .pore_diameter_voxels()
-                .filter(|d| *d < crate::analysis::run::MIN_PORE_DIAMETER_VOXELS)
-                .map(|d| format!("{} ({} voxels)", e.name, num(d)))
+                .filter(|&d| crate::analysis::run::under_resolved(d))
+                .map(|d| {
+                    let flat = d * crate::geometry::surface::ISOTROPIC_FACE_FACTOR;
+                    format!("{} ({} to {} voxels)", e.name, num(flat), num(d))
+                })
         })
         .collect();
     if !coarse.is_empty() {
-        out.push(format!("Pores resolved by fewer than about ten voxels (common practice for a few-% error), so expect resolution errors: {}.", coarse.join(", ")));
+        out.push(format!("Pores resolved by fewer than about ten voxels (common practice for a few-% error; 4φ/S read for flat and for curved walls), so expect resolution errors: {}.", coarse.join(", ")));
     }
     let periodic: Vec<&str> = entries
         .iter()
