@@ -262,6 +262,14 @@ fn an_interrupted_batch_says_how_to_resume() {
         stderr.contains("interrupted") && stderr.contains("run the same batch again"),
         "{stderr}"
     );
+    // Into a pipe (a log) the line starts on its own, with no blank line before it.
+    assert!(
+        stderr
+            .lines()
+            .any(|l| l.starts_with("voxperm: interrupted"))
+            && !stderr.contains("\n\nvoxperm: interrupted"),
+        "{stderr:?}"
+    );
     json(&res.join("s1.json"));
     assert!(!res.join("s2.json").exists());
     for e in std::fs::read_dir(&res).unwrap() {

@@ -107,7 +107,18 @@ fn on_interrupt(advice: &'static str) {
             1 => "; the unfinished output was removed".to_string(),
             n => format!("; {n} unfinished outputs were removed"),
         };
-        let _ = writeln!(std::io::stderr(), "\nvoxperm: interrupted{what}{advice}");
+        // On a terminal the line starts after the echoed ^C or a progress bar; in a log it
+        // starts on its own.
+        use std::io::IsTerminal;
+        let lead = if std::io::stderr().is_terminal() {
+            "\n"
+        } else {
+            ""
+        };
+        let _ = writeln!(
+            std::io::stderr(),
+            "{lead}voxperm: interrupted{what}{advice}"
+        );
         std::process::exit(exit::INTERRUPTED);
     });
     // Without the handler an interrupt still ends the run (exit 130 by the shell's count), only
