@@ -78,7 +78,7 @@ impl std::str::FromStr for Ends {
                 Some(n) => match n.parse::<usize>() {
                     Ok(n) if (1..=MAX_BUFFER).contains(&n) => Ok(Ends::Buffer(n)),
                     _ => Err(format!(
-                        "bad buffer width in '{s}' (expected buffer:N with N a whole number from 1 to {MAX_BUFFER}: the solver grid holds at most 65536 voxels along an axis)"
+                        "bad buffer width in '{s}' (expected buffer:N with N a whole number from 1 to {MAX_BUFFER}; the sample and both buffers must fit the 65536 voxels of a solver axis)"
                     )),
                 },
                 None => Err(format!(
