@@ -108,8 +108,10 @@ pub(super) fn relax(
         if k == STAGES && worst >= tol {
             return Err(Error::Usage(format!(
                 "synth sphere_pack: the overlap relaxation did not converge at solid fraction \
-                 {solid:.3} (largest overlap {:.1} % of a contact after {sweeps} sweeps); \
-                 ask for a higher porosity",
+                 {solid:.3} of the continuous spheres, what the porosity asked for needs once \
+                 voxelised (largest overlap {:.1} % of a contact after {sweeps} sweeps); few \
+                 spheres in a small box jam at a looser packing: ask for a higher porosity, a \
+                 larger box or smaller spheres",
                 100.0 * worst
             )));
         }
