@@ -1114,32 +1114,37 @@ fn write_mask(dir: &Path, name: &str, mask: &PoreMask) -> PathBuf {
     write_mask_with(dir, name, mask, TiffCompression::Lzw)
 }
 
+/// Runs `estimate SAMPLE ARGS -q --json FILE` in `dir`, requires exit 0, and returns the
+/// warnings of the result file.
+fn estimate_warnings(dir: &Path, sample: &Path, args: &[&str]) -> Vec<String> {
+    let j = dir.join("warnings.json");
+    let mut all = vec!["estimate", sample.to_str().unwrap()];
+    all.extend_from_slice(args);
+    all.extend(["-q", "--json", j.to_str().unwrap()]);
+    let (code, _, stderr) = run(&all);
+    assert_eq!(code, 0, "{args:?}: {stderr}");
+    let v: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+    v["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w.as_str().unwrap().to_string())
+        .collect()
+}
+
 /// A BGK run carries a warning that its k depends on τ; the default TRT run does not.
 #[test]
 fn bgk_runs_say_their_permeability_depends_on_tau() {
     let dir = tempfile::tempdir().unwrap();
     let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
     for (collision, expected) in [("bgk", true), ("trt", false)] {
-        let j = dir.path().join(format!("{collision}.json"));
-        let (code, _, stderr) = run(&[
-            "estimate",
-            sample.to_str().unwrap(),
-            "--periodic",
-            "--collision",
-            collision,
-            "-q",
-            "--json",
-            j.to_str().unwrap(),
-        ]);
-        assert_eq!(code, 0, "{stderr}");
-        let v: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
-        let warned = v["warnings"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .any(|w| w.as_str().unwrap().contains("depends on τ"));
-        assert_eq!(warned, expected, "{collision}: {}", v["warnings"]);
+        let warnings = estimate_warnings(
+            dir.path(),
+            &sample,
+            &["--periodic", "--collision", collision],
+        );
+        let warned = warnings.iter().any(|w| w.contains("depends on τ"));
+        assert_eq!(warned, expected, "{collision}: {warnings:?}");
     }
 }
 
@@ -1155,26 +1160,11 @@ fn thin_flat_channels_get_the_resolution_warning() {
             &format!("slit{gap}.tif"),
             &slit(Axis::Z, gap, 4),
         );
-        let j = dir.path().join(format!("slit{gap}.json"));
-        let (code, _, stderr) = run(&[
-            "estimate",
-            sample.to_str().unwrap(),
-            "--periodic",
-            "-q",
-            "--json",
-            j.to_str().unwrap(),
-        ]);
-        assert_eq!(code, 0, "{stderr}");
-        let v: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
-        let warning = v["warnings"]
-            .as_array()
-            .unwrap()
+        let warnings = estimate_warnings(dir.path(), &sample, &["--periodic"]);
+        let warning = warnings
             .iter()
-            .filter_map(|w| w.as_str())
-            .find(|w| w.contains("pores are resolved by only"))
-            .map(str::to_string);
-        assert_eq!(warning.is_some(), expected, "gap {gap}: {}", v["warnings"]);
+            .find(|w| w.contains("pores are resolved by only"));
+        assert_eq!(warning.is_some(), expected, "gap {gap}: {warnings:?}");
         if let Some(w) = warning {
             assert!(w.contains("about 8.0 to 12.0 voxels"), "{w}");
         }
@@ -1223,29 +1213,12 @@ fn a_tensor_with_sealed_sides_says_its_off_diagonals_are_set_by_the_walls() {
     let dir = tempfile::tempdir().unwrap();
     let sample = write_mask(dir.path(), "cell.tif", &sphere_cell(10, 3.5));
     for (sides, expected) in [("sealed", true), ("periodic", false)] {
-        let j = dir.path().join(format!("{sides}.json"));
-        let (code, _, stderr) = run(&[
-            "estimate",
-            sample.to_str().unwrap(),
-            "--axis",
-            "all",
-            "--sides",
-            sides,
-            "--ends",
-            "periodic",
-            "-q",
-            "--json",
-            j.to_str().unwrap(),
-        ]);
-        assert_eq!(code, 0, "{stderr}");
-        let v: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
-        let warned = v["warnings"]
-            .as_array()
-            .unwrap()
+        let args = ["--axis", "all", "--sides", sides, "--ends", "periodic"];
+        let warnings = estimate_warnings(dir.path(), &sample, &args);
+        let warned = warnings
             .iter()
-            .any(|w| w.as_str().unwrap().contains("set by the sealed sides"));
-        assert_eq!(warned, expected, "{sides}: {}", v["warnings"]);
+            .any(|w| w.contains("set by the sealed sides"));
+        assert_eq!(warned, expected, "{sides}: {warnings:?}");
     }
 }
 

@@ -410,13 +410,7 @@ pub(crate) fn tiff_error(path: &Path, z: Option<usize>, e: TiffError) -> Error {
 /// frames (the `channels=` and `frames=` keys ImageJ writes for hyperstacks): read page by
 /// page as z slices, the channels or frames would be interleaved into one scrambled volume.
 fn check_not_hyperstack(dec: &mut TiffDecoder, path: &Path) -> Result<()> {
-    let text = dec
-        .find_tag(Tag::ImageDescription)
-        .ok()
-        .flatten()
-        .and_then(|v| v.into_string().ok())
-        .unwrap_or_default();
-    let d = Description::parse(&text);
+    let d = Description::parse(&description_text(dec));
     let what = match (d.channels.filter(|&c| c > 1), d.frames.filter(|&f| f > 1)) {
         (Some(c), _) => format!("{c} channels (channels={c})"),
         (None, Some(f)) => format!("{f} time frames (frames={f})"),
@@ -430,6 +424,15 @@ fn check_not_hyperstack(dec: &mut TiffDecoder, path: &Path) -> Result<()> {
     ))
 }
 
+/// The current page's ImageDescription text, empty when it has none or it is not text.
+fn description_text(dec: &mut TiffDecoder) -> String {
+    dec.find_tag(Tag::ImageDescription)
+        .ok()
+        .flatten()
+        .and_then(|v| v.into_string().ok())
+        .unwrap_or_default()
+}
+
 /// Resolutions of 72 and 96 pixels per inch are what many writers store when they know
 /// nothing about the pixel size (screen defaults): common practice, so they are ignored.
 const PLACEHOLDER_DPI: [f64; 2] = [72.0, 96.0];
@@ -440,13 +443,7 @@ const PLACEHOLDER_DPI: [f64; 2] = [72.0, 96.0];
 /// or implausible tags are ignored rather than failing the load: the user can always give
 /// the voxel size explicitly.
 pub(crate) fn file_voxel_size(dec: &mut TiffDecoder, path: &Path) -> Option<VoxelSize> {
-    let description = dec
-        .find_tag(Tag::ImageDescription)
-        .ok()
-        .flatten()
-        .and_then(|v| v.into_string().ok())
-        .unwrap_or_default();
-    let desc = Description::parse(&description);
+    let desc = Description::parse(&description_text(dec));
     let res_unit = dec
         .find_tag_unsigned::<u16>(Tag::ResolutionUnit)
         .ok()

@@ -99,26 +99,7 @@ pub fn hostile_header(
         (279, LONG, u32::MAX),                  // StripByteCounts
         (339, SHORT, u32::from(sample_format)), // SampleFormat
     ];
-    let ifd_len = 2 + 12 * entries.len() as u32 + 4;
-    let mut b = Vec::new();
-    b.extend_from_slice(b"II");
-    b.extend_from_slice(&42u16.to_le_bytes());
-    b.extend_from_slice(&8u32.to_le_bytes());
-    for p in 0..pages {
-        let start = 8 + p * ifd_len;
-        b.extend_from_slice(&(entries.len() as u16).to_le_bytes());
-        for (tag, ty, value) in entries {
-            b.extend_from_slice(&tag.to_le_bytes());
-            b.extend_from_slice(&ty.to_le_bytes());
-            b.extend_from_slice(&1u32.to_le_bytes());
-            // A SHORT sits in the first two bytes of the value field; as little-endian u32
-            // that is the same four bytes.
-            b.extend_from_slice(&value.to_le_bytes());
-        }
-        let next = if p + 1 < pages { start + ifd_len } else { 0 };
-        b.extend_from_slice(&next.to_le_bytes());
-    }
-    b
+    tiff_of(&entries, pages, &[])
 }
 
 /// A little-endian TIFF of `pages` IFDs that all point to one strip of `strip` garbage bytes,
@@ -135,37 +116,45 @@ pub fn shared_strip_stack(
 ) -> Vec<u8> {
     const SHORT: u16 = 3;
     const LONG: u16 = 4;
-    let entries_for = |offset: u32| -> [(u16, u16, u32); 9] {
-        [
-            (256, LONG, width),
-            (257, LONG, height),
-            (258, SHORT, 8),
-            (259, SHORT, u32::from(compression)),
-            (262, SHORT, 1),
-            (273, LONG, offset),
-            (277, SHORT, 1),
-            (278, LONG, height),
-            (279, LONG, strip),
-        ]
-    };
-    let ifd_len = 2 + 12 * 9 + 4;
-    let strip_at = 8 + pages * ifd_len;
+    let strip_at = 8 + pages * (2 + 12 * 9 + 4);
+    let entries: [(u16, u16, u32); 9] = [
+        (256, LONG, width),
+        (257, LONG, height),
+        (258, SHORT, 8),
+        (259, SHORT, u32::from(compression)),
+        (262, SHORT, 1),
+        (273, LONG, strip_at),
+        (277, SHORT, 1),
+        (278, LONG, height),
+        (279, LONG, strip),
+    ];
+    let garbage: Vec<u8> = (0..strip).map(|i| (i * 7 + 3) as u8).collect();
+    tiff_of(&entries, pages, &garbage)
+}
+
+/// A little-endian TIFF: the 8-byte header, `pages` chained copies of an IFD holding
+/// `entries` (tag, type, one value each), then `tail`. Layout from TIFF 6.0, section 2 (header,
+/// IFD entries of 12 bytes) [from memory].
+fn tiff_of(entries: &[(u16, u16, u32)], pages: u32, tail: &[u8]) -> Vec<u8> {
+    let ifd_len = 2 + 12 * entries.len() as u32 + 4;
     let mut b = Vec::new();
     b.extend_from_slice(b"II");
     b.extend_from_slice(&42u16.to_le_bytes());
     b.extend_from_slice(&8u32.to_le_bytes());
     for p in 0..pages {
         let start = 8 + p * ifd_len;
-        b.extend_from_slice(&9u16.to_le_bytes());
-        for (tag, ty, value) in entries_for(strip_at) {
+        b.extend_from_slice(&(entries.len() as u16).to_le_bytes());
+        for &(tag, ty, value) in entries {
             b.extend_from_slice(&tag.to_le_bytes());
             b.extend_from_slice(&ty.to_le_bytes());
             b.extend_from_slice(&1u32.to_le_bytes());
+            // A SHORT sits in the first two bytes of the value field; as little-endian u32
+            // that is the same four bytes.
             b.extend_from_slice(&value.to_le_bytes());
         }
         let next = if p + 1 < pages { start + ifd_len } else { 0 };
         b.extend_from_slice(&next.to_le_bytes());
     }
-    b.extend((0..strip).map(|i| (i * 7 + 3) as u8));
+    b.extend_from_slice(tail);
     b
 }
