@@ -353,7 +353,7 @@ fn solve_warnings(
     let dh_flat = dh * crate::geometry::surface::ISOTROPIC_FACE_FACTOR;
     if under_resolved(dh) {
         warnings.push(format!(
-            "pores are resolved by only about {dh_flat:.1} to {dh:.1} voxels (hydraulic diameter 4φ/S: the lower figure for flat walls along the grid, the higher for curved walls); expect a resolution error of several % near ten voxels and more below: image at a finer voxel size, or compare with the sample resampled coarser to see the trend"
+            "pores are resolved by only about {dh_flat:.1} to {dh:.1} voxels (hydraulic diameter 4φ/S: the lower figure for flat walls along the grid, the higher for curved walls); expect a resolution error of several % near ten voxels and tens of % below five: image at a finer voxel size, or compare with the sample resampled coarser to see the trend"
         ));
     }
     warnings
