@@ -568,6 +568,8 @@ fn report_is_self_contained_with_table_plots_methods_and_cautions() {
     );
     let html = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
     assert!(!html.contains("zz-stale-sample"));
+    // Printed, the wide comparison table shrinks onto the page instead of scrolling off it.
+    assert!(html.contains("@media print{"), "no print layout");
     for needle in [
         "<table",
         "Comparison of samples",

@@ -87,7 +87,7 @@ pub fn build(title: &str, entries: &[Entry], failed: Vec<(String, String)>) -> R
         return Err(Error::Usage("no results to report".into()));
     }
     let (plots, mut table_notes) = comparison_plots(entries)?;
-    table_notes.insert(0, "Permeability k and its Kozeny–Carman estimate in voxel² (the lattice unit: voxel edge = 1) for every sample, and in mD (1 mD = 9.869233e-16 m²; k also in m²) where the voxel size is known. Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; under about ten voxels expect a resolution error (common practice). Converged: per flow axis, whether its solve became steady, with its time steps (per solve, as in Methods; steps of a warm start on the coarsened image are not counted).".into());
+    table_notes.insert(0, "Permeability k and its Kozeny–Carman estimate in voxel² (the lattice unit: voxel edge = 1) for every sample, and in mD (1 mD = 9.869233e-16 m²; k also in m²) where the voxel size is known. Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; for flat walls along the grid the true figure is 2/3 of it, and the cautions go by that lower reading: under about ten voxels expect a resolution error (common practice). Converged: per flow axis, whether its solve became steady, with its time steps (per solve, as in Methods; steps of a warm start on the coarsened image are not counted).".into());
     Ok(Document {
         title: title.to_string(),
         comparison: comparison_table(entries),

@@ -26,7 +26,8 @@ table{border-collapse:collapse;font-size:.85rem;margin:.8rem 0}th,td{border:1px 
 th{background:#f0f3f6;text-align:left}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 tr:nth-child(even) td{background:#fafbfc}.scroll{overflow-x:auto}figure{margin:1rem 1.2rem 1rem 0;display:inline-table;vertical-align:top}
 figcaption{display:table-caption;caption-side:bottom;font-size:.85rem;color:#555}svg.plot{max-width:100%;height:auto;border:1px solid #eee}
-.note{font-size:.85rem;color:#555}.failed{color:#a40000}.caution{background:#fff8e5;border-left:4px solid #e0a800;padding:.6rem 1rem}";
+.note{font-size:.85rem;color:#555}.failed{color:#a40000}.caution{background:#fff8e5;border-left:4px solid #e0a800;padding:.6rem 1rem}
+@media print{body{max-width:none;margin:0}.scroll{overflow:visible}table{font-size:6.5pt}th,td{padding:.1rem .2rem}}";
 
 fn table(t: &Table, out: &mut String) {
     out.push_str("<div class=\"scroll\"><table>\n<tr>");
