@@ -103,7 +103,17 @@ pub fn load_sample(spec: &SampleSpec, limits: &ReadLimits) -> Result<Sample> {
 /// True when the values are exactly 0 and 1, both present (a binary mask saved as 0/1).
 fn only_zero_and_one(data: &super::VoxelData) -> bool {
     fn check<T: Copy + PartialEq>(v: &[T], zero: T, one: T) -> bool {
-        v.iter().all(|&x| x == zero || x == one) && v.contains(&zero) && v.contains(&one)
+        let (mut zeros, mut ones) = (false, false);
+        for &x in v {
+            if x == zero {
+                zeros = true;
+            } else if x == one {
+                ones = true;
+            } else {
+                return false;
+            }
+        }
+        zeros && ones
     }
     match data {
         super::VoxelData::U8(v) => check(v, 0, 1),

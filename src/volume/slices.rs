@@ -79,9 +79,9 @@ pub fn read_slice_folder(folder: &Path, limits: &ReadLimits) -> Result<Volume> {
     for path in &files {
         let mut dec = open(path)?;
         let info = page_info(&mut dec, path, 0)?;
-        let storage = page_storage(&mut dec);
-        check_claim(path, "page 1", info.bytes(), &storage, stored_bytes(path))?;
-        check_total_stored(path, storage.stored, stored_bytes(path))?;
+        let (storage, file_bytes) = (page_storage(&mut dec), stored_bytes(path));
+        check_claim(path, "page 1", info.bytes(), &storage, file_bytes)?;
+        check_total_stored(path, storage.stored, file_bytes)?;
         if info != first {
             return Err(Error::bad_input(
                 path,
