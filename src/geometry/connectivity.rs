@@ -40,6 +40,20 @@ const BACKWARD: [(isize, isize, isize); 9] = [
 /// Indices into [`BACKWARD`]: all but the left neighbour (index 0), which is looked at first.
 const ALL_BACKWARD: [usize; 8] = [1, 2, 3, 4, 5, 6, 7, 8];
 
+/// The face neighbours among [`BACKWARD`] other than the left one: (0, −1, 0) and (0, 0, −1).
+/// Neither is a face neighbour of the left neighbour, so both are needed after it too.
+const FACE_BACKWARD: [usize; 2] = [1, 4];
+
+/// Which voxel pairs count as joined.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Links {
+    /// The 18 D3Q19 links (faces and edges): what the solver passes fluid through.
+    Lattice,
+    /// The 6 face links only: a path that needs no voxel edge, so one-voxel diagonal gaps in a
+    /// wall (which pass flow along edge links) do not count.
+    Faces,
+}
+
 /// Indices into [`BACKWARD`] that are *not* D3Q19 backward neighbours of the left neighbour
 /// (x − 1, y, z); the others ((0,−1,0), (−1,−1,0), (0,0,−1), (−1,0,−1)) were joined to it when it
 /// was scanned.
@@ -53,6 +67,7 @@ const AFTER_LEFT: [usize; 4] = [3, 6, 7, 8];
 pub struct Clusters {
     shape: [usize; 3],
     periodic: [bool; 3],
+    links: Links,
     labels: Vec<u32>,
     sizes: Vec<usize>,
 }
@@ -235,7 +250,7 @@ impl Clusters {
             "merging starts from a cut labelling"
         );
         let mut map: Vec<u32> = (0..=self.count() as u32).collect();
-        join_across_wrap(self.shape, periodic, &self.labels, &mut map);
+        join_across_wrap(self.shape, periodic, self.links, &self.labels, &mut map);
         let count = compact(&mut map);
         let mut sizes = vec![0usize; count as usize];
         for (k, &s) in self.sizes.iter().enumerate() {
@@ -264,9 +279,15 @@ impl Clusters {
         let mut map: Vec<u32> = (0..n as u32).collect();
         let mut shift = vec![0i32; n];
         let mut winds = vec![false; n];
-        for_each_wrap_link(self.shape, periodic, &self.labels, |li, lj, wraps| {
-            union_shifted(&mut map, &mut shift, &mut winds, li, lj, wraps[a] as i32);
-        });
+        for_each_wrap_link(
+            self.shape,
+            periodic,
+            self.links,
+            &self.labels,
+            |li, lj, wraps| {
+                union_shifted(&mut map, &mut shift, &mut winds, li, lj, wraps[a] as i32);
+            },
+        );
         drop(shift);
         let count = compact(&mut map);
         let mut sizes = vec![0usize; count as usize];
@@ -293,6 +314,11 @@ impl Clusters {
 ///
 /// Fails only when the grid has more voxels than u32 labels can address (about 4.3 × 10⁹).
 pub fn label_clusters(mask: &PoreMask, periodic: [bool; 3]) -> Result<Clusters> {
+    label_clusters_by(mask, periodic, Links::Lattice)
+}
+
+/// [`label_clusters`] with the choice of which neighbours join.
+pub fn label_clusters_by(mask: &PoreMask, periodic: [bool; 3], links: Links) -> Result<Clusters> {
     let shape = mask.shape();
     let [nx, ny, nz] = shape;
     if mask.len() > MAX_VOXELS {
@@ -327,10 +353,17 @@ pub fn label_clusters(mask: &PoreMask, periodic: [bool; 3]) -> Result<Clusters> 
                 // its own backward neighbours and already share its set: only the rest need a
                 // union. This halves the union–find work in dense pore space.
                 let left = if x > 0 { labels[i - 1] } else { 0 };
-                let (mut l, todo) = if left != 0 {
-                    (find(&mut parent, left), &AFTER_LEFT[..])
-                } else {
-                    (0u32, &ALL_BACKWARD[..])
+                let (mut l, todo) = match (left != 0, links) {
+                    (_, Links::Faces) => (
+                        if left != 0 {
+                            find(&mut parent, left)
+                        } else {
+                            0
+                        },
+                        &FACE_BACKWARD[..],
+                    ),
+                    (true, Links::Lattice) => (find(&mut parent, left), &AFTER_LEFT[..]),
+                    (false, Links::Lattice) => (0u32, &ALL_BACKWARD[..]),
                 };
                 for &k in todo {
                     let dx = BACKWARD[k].0;
@@ -355,7 +388,7 @@ pub fn label_clusters(mask: &PoreMask, periodic: [bool; 3]) -> Result<Clusters> 
         }
     }
 
-    join_across_wrap(shape, periodic, &labels, &mut parent);
+    join_across_wrap(shape, periodic, links, &labels, &mut parent);
 
     let count = compact(&mut parent);
     let mut sizes = vec![0usize; count as usize];
@@ -369,31 +402,39 @@ pub fn label_clusters(mask: &PoreMask, periodic: [bool; 3]) -> Result<Clusters> 
     Ok(Clusters {
         shape,
         periodic,
+        links,
         labels,
         sizes,
     })
 }
 
 /// Unions provisional labels across every periodic face (see [`for_each_wrap_link`]).
-fn join_across_wrap(shape: [usize; 3], periodic: [bool; 3], labels: &[u32], parent: &mut [u32]) {
-    for_each_wrap_link(shape, periodic, labels, |li, lj, _| {
+fn join_across_wrap(
+    shape: [usize; 3],
+    periodic: [bool; 3],
+    links: Links,
+    labels: &[u32],
+    parent: &mut [u32],
+) {
+    for_each_wrap_link(shape, periodic, links, labels, |li, lj, _| {
         union(parent, li, lj);
     });
 }
 
-/// Calls `f(li, lj, wraps)` for every D3Q19 link between pore voxels that crosses the wrap of a
+/// Calls `f(li, lj, wraps)` for every link of kind `links` between pore voxels that crosses the wrap of a
 /// `periodic` axis, with the labels `li`, `lj` of its two ends and, per axis, the number of times
 /// the link crosses that axis's wrap going from the `li` end to the `lj` end: +1 from the last
 /// layer to the first, −1 from the first to the last, 0 if it stays inside (so the `lj` voxel
 /// lies in the periodic copy `wraps` away from the `li` voxel's).
 ///
 /// Every link that crosses the wrap of axis `a` leaves a voxel on the last layer along `a` with
-/// step +1 along `a`, so scanning that layer with the 5 D3Q19 links having +1 along `a` finds
-/// each crossing link; a link that also crosses the wrap of a second periodic axis is found once
-/// from each axis's layer, with the same `wraps`.
+/// step +1 along `a`, so scanning that layer with the 5 D3Q19 links having +1 along `a` (the
+/// face link alone for [`Links::Faces`]) finds each crossing link; a link that also crosses the
+/// wrap of a second periodic axis is found once from each axis's layer, with the same `wraps`.
 fn for_each_wrap_link(
     shape: [usize; 3],
     periodic: [bool; 3],
+    links: Links,
     labels: &[u32],
     mut f: impl FnMut(u32, u32, [i8; 3]),
 ) {
@@ -407,6 +448,10 @@ fn for_each_wrap_link(
         let (b, c) = ((a + 1) % 3, (a + 2) % 3);
         // Steps along (b, c) for the 5 links with +1 along a: face link and 4 edge links.
         const TRANSVERSE: [(isize, isize); 5] = [(0, 0), (1, 0), (-1, 0), (0, 1), (0, -1)];
+        let transverse = match links {
+            Links::Lattice => &TRANSVERSE[..],
+            Links::Faces => &TRANSVERSE[..1],
+        };
         for ib in 0..shape[b] {
             for ic in 0..shape[c] {
                 let mut p = [0usize; 3];
@@ -418,7 +463,7 @@ fn for_each_wrap_link(
                 if li == 0 {
                     continue;
                 }
-                for &(db, dc) in &TRANSVERSE {
+                for &(db, dc) in transverse {
                     let (Some(qb), Some(qc)) = (
                         step(ib, db, shape[b], periodic[b]),
                         step(ic, dc, shape[c], periodic[c]),
@@ -693,6 +738,32 @@ pub fn percolating(
     })
 }
 
+/// Pore voxels that carry flow along `axis` by the definition of [`percolating`] when only
+/// face links join voxels ([`Links::Faces`]). Zero while [`percolating`] finds a path means
+/// every path from inlet to outlet crosses a voxel edge: a gap between two solid voxels that
+/// meet only along their edge, which the solver's edge links pass and the image does not
+/// resolve. Costs one more voxel labelling.
+pub fn face_connected_pore_voxels(
+    mask: &PoreMask,
+    axis: Axis,
+    sides_periodic: bool,
+    ends_periodic: bool,
+) -> Result<usize> {
+    let base = label_clusters_by(mask, [false; 3], Links::Faces)?;
+    Ok(decide(&base, axis, sides_periodic, ends_periodic).connected_pore_voxels)
+}
+
+/// [`face_connected_pore_voxels`] along x, y and z from one voxel labelling.
+pub fn face_connected_by_axis(
+    mask: &PoreMask,
+    sides_periodic: bool,
+    ends_periodic: bool,
+) -> Result<[usize; 3]> {
+    let base = label_clusters_by(mask, [false; 3], Links::Faces)?;
+    Ok(Axis::ALL
+        .map(|axis| decide(&base, axis, sides_periodic, ends_periodic).connected_pore_voxels))
+}
+
 /// [`percolating`] along x, y and z, counts only (no masks are built).
 ///
 /// The voxels are labelled once with all axes cut; every boundary mode and axis is then decided
@@ -722,9 +793,17 @@ pub fn percolation_by_axis(
 mod tests {
     use super::*;
 
-    /// Reference labelling by breadth-first search over all 18 D3Q19 links, written
-    /// independently of the raster scan (explicit queue, explicit wrap per link).
-    fn bfs_labels(mask: &PoreMask, periodic: [bool; 3]) -> Vec<u32> {
+    /// Whether the step (dx, dy, dz) is a link of kind `links`.
+    fn is_link(links: Links, m: isize) -> bool {
+        match links {
+            Links::Lattice => m == 1 || m == 2,
+            Links::Faces => m == 1,
+        }
+    }
+
+    /// Reference labelling by breadth-first search over all 18 D3Q19 links (or the 6 face
+    /// links), written independently of the raster scan (explicit queue, explicit wrap per link).
+    fn bfs_labels(mask: &PoreMask, periodic: [bool; 3], links: Links) -> Vec<u32> {
         let s = mask.shape();
         let mut lab = vec![0u32; mask.len()];
         let mut next = 0u32;
@@ -741,8 +820,7 @@ mod tests {
                 for dx in -1isize..=1 {
                     for dy in -1isize..=1 {
                         for dz in -1isize..=1 {
-                            let m = dx.abs() + dy.abs() + dz.abs();
-                            if m == 0 || m == 3 {
+                            if !is_link(links, dx.abs() + dy.abs() + dz.abs()) {
                                 continue;
                             }
                             let d = [dx, dy, dz];
@@ -799,14 +877,16 @@ mod tests {
                     let periodic = [bits & 1 != 0, bits & 2 != 0, bits & 4 != 0];
                     seed += 1;
                     let m = random_mask(shape, porosity, seed);
-                    let c = label_clusters(&m, periodic).unwrap();
-                    let reference = bfs_labels(&m, periodic);
-                    assert_eq!(
-                        c.labels(),
-                        &reference[..],
-                        "{shape:?} {porosity} {periodic:?}"
-                    );
-                    assert_eq!(c.sizes().iter().sum::<usize>(), m.pore_count());
+                    for links in [Links::Lattice, Links::Faces] {
+                        let c = label_clusters_by(&m, periodic, links).unwrap();
+                        let reference = bfs_labels(&m, periodic, links);
+                        assert_eq!(
+                            c.labels(),
+                            &reference[..],
+                            "{shape:?} {porosity} {periodic:?} {links:?}"
+                        );
+                        assert_eq!(c.sizes().iter().sum::<usize>(), m.pore_count());
+                    }
                 }
             }
         }
@@ -819,18 +899,20 @@ mod tests {
             for porosity in [0.12, 0.2, 0.4] {
                 seed += 1;
                 let m = random_mask(shape, porosity, seed);
-                let base = label_clusters(&m, [false; 3]).unwrap();
-                for bits in 0..8u32 {
-                    let periodic = [bits & 1 != 0, bits & 2 != 0, bits & 4 != 0];
-                    let direct = label_clusters(&m, periodic).unwrap();
-                    let merged = base.merged(periodic);
-                    let relabelled: Vec<u32> = base
-                        .labels()
-                        .iter()
-                        .map(|&l| merged.map[l as usize])
-                        .collect();
-                    assert_eq!(relabelled, direct.labels(), "{shape:?} {periodic:?}");
-                    assert_eq!(merged.sizes, direct.sizes());
+                for links in [Links::Lattice, Links::Faces] {
+                    let base = label_clusters_by(&m, [false; 3], links).unwrap();
+                    for bits in 0..8u32 {
+                        let periodic = [bits & 1 != 0, bits & 2 != 0, bits & 4 != 0];
+                        let direct = label_clusters_by(&m, periodic, links).unwrap();
+                        let merged = base.merged(periodic);
+                        let relabelled: Vec<u32> = base
+                            .labels()
+                            .iter()
+                            .map(|&l| merged.map[l as usize])
+                            .collect();
+                        assert_eq!(relabelled, direct.labels(), "{shape:?} {periodic:?}");
+                        assert_eq!(merged.sizes, direct.sizes());
+                    }
                 }
             }
         }
@@ -841,7 +923,7 @@ mod tests {
     /// every voxel its unwrapped periodic copy along `axis` (i64) and marks a cluster as winding
     /// when a link reaches an already visited voxel of it in another copy than the link implies.
     /// Returns the kept mask.
-    fn bfs_winding(mask: &PoreMask, axis: Axis, sides: bool) -> Vec<bool> {
+    fn bfs_winding(mask: &PoreMask, axis: Axis, sides: bool, links: Links) -> Vec<bool> {
         let s = mask.shape();
         let a = axis.index();
         let mut periodic = [sides; 3];
@@ -861,8 +943,7 @@ mod tests {
             while let Some(i) = queue.pop_front() {
                 let p = [i % s[0], (i / s[0]) % s[1], i / (s[0] * s[1])];
                 for d in (0..27).map(|k| [k % 3 - 1, (k / 3) % 3 - 1, k / 9 - 1]) {
-                    let m: isize = d.iter().map(|v: &isize| v.abs()).sum();
-                    if m == 0 || m == 3 {
+                    if !is_link(links, d.iter().map(|v: &isize| v.abs()).sum()) {
                         continue;
                     }
                     let mut q = [0usize; 3];
@@ -913,8 +994,14 @@ mod tests {
                 let m = random_mask(shape, porosity, seed);
                 for axis in Axis::ALL {
                     for sides in [false, true] {
-                        let want = bfs_winding(&m, axis, sides);
+                        let want = bfs_winding(&m, axis, sides, Links::Lattice);
                         let got = percolating(&m, axis, sides, true).unwrap();
+                        let faces = bfs_winding(&m, axis, sides, Links::Faces);
+                        assert_eq!(
+                            face_connected_pore_voxels(&m, axis, sides, true).unwrap(),
+                            faces.iter().filter(|&&k| k).count(),
+                            "faces {shape:?} {porosity} {axis} sides {sides}"
+                        );
                         assert_eq!(
                             got.mask.as_slice(),
                             &want[..],
