@@ -1263,3 +1263,51 @@ fn summary_and_json_record_the_raw_layout_and_the_crop() {
     assert_eq!(v["input"]["raw_layout"], "10x10x10 u16 big-endian");
     assert_eq!(v["input"]["crop"], "2:10,:,:");
 }
+
+/// A wall one voxel thick that steps sideways every row (x = 10 or 11 by the parity of y)
+/// closes the pore space for face links but not for the D3Q19 edge links: the solver finds a
+/// path and a k, and the result warns that every path crosses such an edge gap. The same wall
+/// two voxels thick with a face-connected hole carries no such warning; the wall without a
+/// hole has no path at all (exit 4).
+#[test]
+fn paths_only_across_voxel_edges_are_warned_about() {
+    let dir = tempfile::tempdir().unwrap();
+    let stair = PoreMask::from_fn([24, 8, 8], |x, y, _| x != 10 + y % 2);
+    let holed = PoreMask::from_fn([24, 8, 8], |x, y, z| {
+        !(x == 10 || x == 11) || ((3..5).contains(&y) && (3..5).contains(&z))
+    });
+    let closed = PoreMask::from_fn([24, 8, 8], |x, _, _| !(x == 10 || x == 11));
+    let edge_warning = |w: &String| w.contains("joins the faces only across voxel edges");
+    for (name, mask, expected) in [("stair.tif", &stair, true), ("holed.tif", &holed, false)] {
+        let sample = write_mask(dir.path(), name, mask);
+        let warnings = estimate_warnings(dir.path(), &sample, &["--periodic", "--axis", "x"]);
+        assert_eq!(
+            warnings.iter().any(edge_warning),
+            expected,
+            "{name}: {warnings:?}"
+        );
+        let v: serde_json::Value = serde_json::from_str(
+            &std::fs::read_to_string(dir.path().join("warnings.json")).unwrap(),
+        )
+        .unwrap();
+        let face = v["axes"][0]["face_connected_porosity"].as_f64().unwrap();
+        let all = v["axes"][0]["connected_porosity"].as_f64().unwrap();
+        assert!(v["permeability_lattice"].as_f64().unwrap() > 0.0, "{name}");
+        if expected {
+            assert_eq!(face, 0.0, "{name}");
+        } else {
+            assert_eq!(face, all, "{name}");
+        }
+    }
+    // describe says so before any solve.
+    let stair_tif = dir.path().join("stair.tif");
+    let (code, stdout, stderr) = run(&["describe", stair_tif.to_str().unwrap(), "--periodic"]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stdout.contains("every path crosses a voxel edge"),
+        "{stdout}"
+    );
+    let sample = write_mask(dir.path(), "closed.tif", &closed);
+    let (code, _, stderr) = run(&["estimate", sample.to_str().unwrap(), "--periodic"]);
+    assert_eq!(code, 4, "{stderr}");
+}

@@ -4,7 +4,7 @@
 use super::flow::{AxisFlow, analyse};
 use super::tensor::{TensorAnalysis, analyse_tensor};
 use super::units::{lattice_to_m2, m2_to_md};
-use crate::geometry::connectivity::percolating;
+use crate::geometry::connectivity::{face_connected_pore_voxels, percolating};
 use crate::geometry::{Axis, PoreMask};
 use crate::lbm::solver::CheckPoint;
 use crate::lbm::warm::{solve_coarse, solve_stage_bytes};
@@ -35,6 +35,10 @@ pub struct AxisEstimate {
     pub percolates: bool,
     /// Pore voxels of percolating clusters per sample voxel.
     pub connected_porosity: f64,
+    /// The same with voxels joined through faces only, not edges
+    /// ([`face_connected_pore_voxels`]); 0 while `connected_porosity` is not means that every
+    /// path the solver finds crosses a gap between solid voxels that meet along an edge.
+    pub face_connected_porosity: f64,
     /// k along the axis in voxel² (0 when nothing percolates).
     pub permeability_lattice: f64,
     pub permeability_m2: Option<f64>,
@@ -119,6 +123,10 @@ pub fn estimate_axis(
             periodic_ends: ends_periodic,
         });
     }
+    // A face-connected path lies inside the connected clusters, so their mask suffices.
+    let face_connected_porosity =
+        face_connected_pore_voxels(&perc.mask, axis, sides_periodic, ends_periodic)? as f64
+            / mask.len().max(1) as f64;
     // The whole solve stage against the limit, before anything is allocated: the same figure
     // `describe` prints and the result records (the domain build checks its own part again).
     let grid = Domain::grid_shape(mask.shape(), axis, cfg.mode);
@@ -194,6 +202,7 @@ pub fn estimate_axis(
         axis,
         percolates: true,
         connected_porosity,
+        face_connected_porosity,
         permeability_lattice: k,
         permeability_m2: k_m2,
         permeability_md: k_m2.map(m2_to_md),
@@ -286,6 +295,7 @@ fn no_path(axis: Axis, cfg: &EstimateConfig) -> AxisEstimate {
         axis,
         percolates: false,
         connected_porosity: 0.0,
+        face_connected_porosity: 0.0,
         permeability_lattice: 0.0,
         permeability_m2: cfg.voxel_size_m.map(|_| 0.0),
         permeability_md: cfg.voxel_size_m.map(|_| 0.0),

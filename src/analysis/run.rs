@@ -334,6 +334,12 @@ fn solve_warnings(
                 ax.axis
             ));
         }
+        if ax.percolates && ax.face_connected_porosity == 0.0 {
+            warnings.push(format!(
+                "axis {}: the pore space joins the faces only across voxel edges: every path passes a gap where two solid voxels meet along an edge, which the solver's edge links let flow through but the image does not resolve; such a wall is probably closed in the material and k may be far too high (make one-voxel walls face-connected in the segmentation, or look at the flow in the VTK field)",
+                ax.axis
+            ));
+        }
         if ax.percolates && ax.connected_porosity < 0.5 * porosity {
             warnings.push(format!(
                 "axis {}: only {:.0}% of the pore space connects the faces; the sample may be near its percolation limit",

@@ -117,9 +117,10 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         };
         let need = solve_stage_bytes(g.shape, grid, fluid, &settings)
             .max(load_peak_bytes(voxels, bytes_per_sample));
+        let face = g.face_connected_porosity[axis.index()];
         let _ = writeln!(
             out,
-            "axis {axis}      {}  connected porosity {:.4}  solve memory {:.3} GiB ({} fluid nodes on {}x{}x{})",
+            "axis {axis}      {}  connected porosity {:.4}  solve memory {:.3} GiB ({} fluid nodes on {}x{}x{}){}",
             if ap.percolates {
                 "percolates        "
             } else {
@@ -130,12 +131,18 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
             fluid,
             grid[0],
             grid[1],
-            grid[2]
+            grid[2],
+            if ap.percolates && face == 0.0 {
+                "\n            every path crosses a voxel edge (solid voxels meeting along an edge): no face-connected path, k may be far too high"
+            } else {
+                ""
+            }
         );
         axes_json.push(json!({
             "axis": axis,
             "percolates": ap.percolates,
             "connected_porosity": ap.connected_porosity,
+            "face_connected_porosity": face,
             "solve_memory_bytes": need,
             "solve_memory_assumes_warm_start": settings.warm_start,
             "fluid_nodes": fluid,

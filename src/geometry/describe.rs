@@ -2,7 +2,7 @@
 //! per axis, specific surface and a Kozeny–Carman estimate. No flow is solved.
 
 use super::PoreMask;
-use super::connectivity::{AxisPercolation, percolation_by_axis};
+use super::connectivity::{AxisPercolation, face_connected_by_axis, percolation_by_axis};
 use super::surface::{Surface, measure_surface};
 use crate::Result;
 use crate::analysis::kozeny::{KOZENY_CONSTANT, kozeny_carman_from_surface};
@@ -25,6 +25,9 @@ pub struct GeometrySummary {
     pub ends_periodic: bool,
     /// Percolation along x, y and z.
     pub axes: [AxisPercolation; 3],
+    /// Connected porosity along x, y and z with voxels joined through faces only
+    /// ([`super::connectivity::face_connected_pore_voxels`]).
+    pub face_connected_porosity: [f64; 3],
     /// Pore–solid surface. Faces across the grid boundary are counted only when sides and ends
     /// are both periodic (a periodic unit cell); otherwise the sample's outer faces are cuts.
     pub surface: Surface,
@@ -56,6 +59,9 @@ pub fn summarize(
         || measure_surface(mask, [wrap; 3]),
     );
     let axes = axes?;
+    // After the D3Q19 labelling is freed, so the two label arrays never coexist.
+    let face = face_connected_by_axis(mask, sides_periodic, ends_periodic)?;
+    let face_connected_porosity = face.map(|v| v as f64 / mask.len().max(1) as f64);
     let total_porosity = mask.porosity();
     Ok(GeometrySummary {
         shape: mask.shape(),
@@ -65,6 +71,7 @@ pub fn summarize(
         sides_periodic,
         ends_periodic,
         axes,
+        face_connected_porosity,
         kozeny_constant: KOZENY_CONSTANT,
         kc_estimate_voxel2: kozeny_carman_from_surface(
             total_porosity,
