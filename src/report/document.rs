@@ -388,14 +388,36 @@ fn inputs_table(entries: &[Entry]) -> Table {
     }
 }
 
-/// One paragraph per group of samples with equal settings.
+/// One paragraph per group of samples with equal settings. With several groups the sentences
+/// every group shares come once, in a paragraph of their own, and each group's paragraph keeps
+/// only the sentences in which it differs.
 fn methods(entries: &[Entry]) -> Vec<String> {
-    let mut groups: BTreeMap<String, Vec<&Entry>> = BTreeMap::new();
+    let mut groups: BTreeMap<Vec<String>, Vec<&Entry>> = BTreeMap::new();
     for e in entries {
-        groups.entry(method_text(&e.result)).or_default().push(e);
+        groups
+            .entry(method_sentences(&e.result))
+            .or_default()
+            .push(e);
     }
+    let shared: Vec<String> = match groups.keys().next() {
+        Some(first) if groups.len() > 1 => first
+            .iter()
+            .filter(|t| groups.keys().all(|g| g.contains(t)))
+            .cloned()
+            .collect(),
+        _ => Vec::new(),
+    };
     let mut out = vec!["Permeability was computed by simulating steady, slow (Stokes) flow through the pore space of each segmented image and applying Darcy's law, k = ν⟨u⟩/g, with ⟨u⟩ the superficial velocity (mean over the whole sample, solid counted as zero), ν the lattice viscosity and g the body force. Hydraulic tortuosity is Σ|u|/Σu_axis over the fluid nodes (Koponen, Kataja & Timonen 1996). Kozeny–Carman estimates use k = φ³/(c_K S²) with c_K = 5 (Carman 1937); the implied Kozeny constant is φ³/(k S²) with the simulated k.".to_string()];
-    for (text, members) in groups {
+    if !shared.is_empty() {
+        out.push(format!("All samples: {}", shared.join(" ")));
+    }
+    for (sentences, members) in groups {
+        let text = sentences
+            .iter()
+            .filter(|t| !shared.contains(t))
+            .cloned()
+            .collect::<Vec<_>>()
+            .join(" ");
         let names: Vec<&str> = members.iter().map(|e| e.name.as_str()).collect();
         let steps: Vec<usize> = members
             .iter()
@@ -444,8 +466,9 @@ fn methods(entries: &[Entry]) -> Vec<String> {
     out
 }
 
-/// The settings of one result in words; equal text means equal settings.
-fn method_text(r: &ResultView) -> String {
+/// The settings of one result in words, sentence by sentence; equal sentences mean equal
+/// settings.
+fn method_sentences(r: &ResultView) -> Vec<String> {
     let s = &r.settings;
     let v = &s.solver;
     let collision = match (v.collision.as_str(), s.tau_minus) {
@@ -478,17 +501,20 @@ fn method_text(r: &ResultView) -> String {
         ),
     };
     let axes: Vec<String> = r.axes.iter().map(|a| a.axis.to_string()).collect();
-    format!(
-        "Lattice {} (19 velocities) with {collision}, lattice viscosity ν = {viscosity}, driven by {force}, half-way bounce-back at pore walls. Sample faces: sides {}, ends {}. Flow along {}. {start} Steady when the relative change of the mean velocity per step stayed below {:e} over two check windows of {} steps, at most {} steps. Connectivity: {}.",
-        s.lattice,
-        s.sides,
-        s.ends,
-        axes.join(", "),
-        v.tolerance,
-        v.check_every,
-        v.max_steps,
-        s.connectivity
-    )
+    vec![
+        format!(
+            "Lattice {} (19 velocities) with {collision}, lattice viscosity ν = {viscosity}, driven by {force}, half-way bounce-back at pore walls.",
+            s.lattice
+        ),
+        format!("Sample faces: sides {}, ends {}.", s.sides, s.ends),
+        format!("Flow along {}.", axes.join(", ")),
+        start.to_string(),
+        format!(
+            "Steady when the relative change of the mean velocity per step stayed below {:e} over two check windows of {} steps, at most {} steps.",
+            v.tolerance, v.check_every, v.max_steps
+        ),
+        format!("Connectivity: {}.", s.connectivity),
+    ]
 }
 
 fn cautions(entries: &[Entry]) -> Vec<String> {
@@ -607,6 +633,29 @@ mod tests {
         assert!(m.contains("Time steps per solve (one flow axis"), "{m}");
         assert!(m.contains("): 300 to 400."), "{m}");
         assert!(!m.contains("700"), "{m}");
+    }
+
+    /// Groups that differ in one setting share the rest of their methods text, said once.
+    #[test]
+    fn methods_say_shared_settings_once() {
+        let one = build("t", &[entry("a", None)], vec![]).unwrap();
+        assert_eq!(one.methods.len(), 2, "{:?}", one.methods);
+        assert!(
+            one.methods[1].starts_with("a: Lattice"),
+            "{:?}",
+            one.methods
+        );
+        let mut b = entry("b", None);
+        b.result.settings.ends = "periodic".into();
+        let two = build("t", &[entry("a", None), b], vec![]).unwrap();
+        let m = &two.methods;
+        assert_eq!(m.len(), 4, "{m:?}");
+        assert!(m[1].starts_with("All samples: Lattice"), "{m:?}");
+        assert!(!m[1].contains("Sample faces"), "{m:?}");
+        for (p, ends) in [(&m[2], "ends mirror"), (&m[3], "ends periodic")] {
+            assert!(p.contains(ends) && !p.contains("Lattice"), "{m:?}");
+            assert!(p.contains("Time steps per solve"), "{m:?}");
+        }
     }
 
     /// A speed map's plane is placed in voxels and, with a voxel size, in the µm of its axes.
