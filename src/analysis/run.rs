@@ -376,7 +376,7 @@ fn settings(cfg: &RunConfig, threads: usize) -> Settings {
         ends: cfg.mode.ends.to_string(),
         threads,
         max_memory_bytes: cfg.max_memory_bytes,
-        connectivity: "pore clusters along D3Q19 links; only clusters spanning inlet to outlet are solved",
+        connectivity: "pore clusters along D3Q19 links (faces and edges); only clusters that carry flow from inlet to outlet (with periodic ends: that wind round the flow axis) are solved; a second labelling with face links only flags an axis whose every path crosses a voxel edge",
     }
 }
 
