@@ -1023,6 +1023,63 @@ mod tests {
     }
 
     #[test]
+    fn face_links_with_cut_ends_keep_the_spanning_face_clusters() {
+        // The cut-ends branch of `decide` for face links, and `face_connected_by_axis` for both
+        // end modes, against a breadth-first search: keep a face cluster (flow axis cut, sides
+        // wrapping iff `sides`) that has a voxel on the inlet and on the outlet layer.
+        let shapes = [[7, 6, 5], [1, 8, 9], [2, 9, 3], [10, 2, 1]];
+        let mut seed = 9000;
+        let mut faces_differ = 0;
+        for shape in shapes {
+            for porosity in [0.2, 0.35, 0.5, 0.7] {
+                seed += 1;
+                let m = random_mask(shape, porosity, seed);
+                for sides in [false, true] {
+                    let by_axis = face_connected_by_axis(&m, sides, false).unwrap();
+                    let by_axis_periodic = face_connected_by_axis(&m, sides, true).unwrap();
+                    for axis in Axis::ALL {
+                        let a = axis.index();
+                        let lab = bfs_labels(&m, cut_flags(axis, sides), Links::Faces);
+                        let n = shape[a];
+                        let on_layer = |layer: usize| {
+                            let mut s = std::collections::HashSet::new();
+                            for (i, &l) in lab.iter().enumerate() {
+                                let p = [
+                                    i % shape[0],
+                                    (i / shape[0]) % shape[1],
+                                    i / (shape[0] * shape[1]),
+                                ];
+                                if l != 0 && p[a] == layer {
+                                    s.insert(l);
+                                }
+                            }
+                            s
+                        };
+                        let (inlet, outlet) = (on_layer(0), on_layer(n - 1));
+                        let want = lab
+                            .iter()
+                            .filter(|l| inlet.contains(l) && outlet.contains(l))
+                            .count();
+                        let got = face_connected_pore_voxels(&m, axis, sides, false).unwrap();
+                        assert_eq!(got, want, "{shape:?} {porosity} {axis} sides {sides}");
+                        assert_eq!(by_axis[a], want, "{shape:?} {porosity} {axis} {sides}");
+                        assert_eq!(
+                            by_axis_periodic[a],
+                            face_connected_pore_voxels(&m, axis, sides, true).unwrap(),
+                            "{shape:?} {porosity} {axis} {sides} periodic ends"
+                        );
+                        let lattice = percolating(&m, axis, sides, false).unwrap();
+                        assert!(want <= lattice.connected_pore_voxels);
+                        faces_differ += usize::from(want != lattice.connected_pore_voxels);
+                    }
+                }
+            }
+        }
+        // The masks must separate face from lattice connectivity, or this checks little.
+        assert!(faces_differ > 0);
+    }
+
+    #[test]
     fn empty_and_solid_grids_have_no_clusters() {
         let empty = PoreMask::new([0, 4, 4], vec![]);
         let c = label_clusters(&empty, [true; 3]).unwrap();
