@@ -123,10 +123,6 @@ pub fn estimate_axis(
             periodic_ends: ends_periodic,
         });
     }
-    // A face-connected path lies inside the connected clusters, so their mask suffices.
-    let face_connected_porosity =
-        face_connected_pore_voxels(&perc.mask, axis, sides_periodic, ends_periodic)? as f64
-            / mask.len().max(1) as f64;
     // The whole solve stage against the limit, before anything is allocated: the same figure
     // `describe` prints and the result records (the domain build checks its own part again).
     let grid = Domain::grid_shape(mask.shape(), axis, cfg.mode);
@@ -147,6 +143,10 @@ pub fn estimate_axis(
             limit_bytes: cfg.max_memory_bytes,
         });
     }
+    // A face-connected path lies inside the connected clusters, so their mask suffices.
+    let face_connected_porosity =
+        face_connected_pore_voxels(&perc.mask, axis, sides_periodic, ends_periodic)? as f64
+            / mask.len().max(1) as f64;
     // The coarse flow is solved before the fine grid exists, so the two never hold
     // populations at the same time.
     let mut note = None;

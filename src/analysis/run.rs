@@ -299,6 +299,14 @@ pub fn sample_warnings(sample: &Sample, path: &std::path::Path) -> Vec<String> {
     warnings
 }
 
+/// The warning for an axis along which every pore path crosses a voxel edge (no face-connected
+/// path; `estimate` and `describe` give it alike).
+pub fn edge_only_warning(axis: Axis) -> String {
+    format!(
+        "axis {axis}: the pore space joins the faces only across voxel edges: every path passes a gap where two solid voxels meet along an edge, which the solver's edge links let flow through but the image does not resolve; such a wall is probably closed in the material and k may be far too high (make one-voxel walls face-connected in the segmentation, or look at the flow in the VTK field)"
+    )
+}
+
 /// Advice that depends on the solve: flow regime, convergence, connectivity, resolution.
 fn solve_warnings(
     est: &Estimate,
@@ -335,10 +343,7 @@ fn solve_warnings(
             ));
         }
         if ax.percolates && ax.face_connected_porosity == 0.0 {
-            warnings.push(format!(
-                "axis {}: the pore space joins the faces only across voxel edges: every path passes a gap where two solid voxels meet along an edge, which the solver's edge links let flow through but the image does not resolve; such a wall is probably closed in the material and k may be far too high (make one-voxel walls face-connected in the segmentation, or look at the flow in the VTK field)",
-                ax.axis
-            ));
+            warnings.push(edge_only_warning(ax.axis));
         }
         if ax.percolates && ax.connected_porosity < 0.5 * porosity {
             warnings.push(format!(

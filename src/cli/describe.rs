@@ -77,6 +77,11 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     } else if g.pore_voxels == 0 {
         warnings.push("no voxel is pore: estimate refuses it (all solid); check --pore-label, --threshold and --pore".into());
     }
+    for ap in &g.axes {
+        if ap.percolates && g.face_connected_porosity[ap.axis.index()] == 0.0 {
+            warnings.push(voxperm::analysis::run::edge_only_warning(ap.axis));
+        }
+    }
     warnings.iter().for_each(super::args::warn);
     let mut out = String::new();
     let [nx, ny, nz] = g.shape;
@@ -120,7 +125,7 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
         let face = g.face_connected_porosity[axis.index()];
         let _ = writeln!(
             out,
-            "axis {axis}      {}  connected porosity {:.4}  solve memory {:.3} GiB ({} fluid nodes on {}x{}x{}){}",
+            "axis {axis}      {}  connected porosity {:.4}  solve memory {:.3} GiB ({} fluid nodes on {}x{}x{})",
             if ap.percolates {
                 "percolates        "
             } else {
@@ -132,11 +137,6 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
             grid[0],
             grid[1],
             grid[2],
-            if ap.percolates && face == 0.0 {
-                "\n            every path crosses a voxel edge (solid voxels meeting along an edge): no face-connected path, k may be far too high"
-            } else {
-                ""
-            }
         );
         axes_json.push(json!({
             "axis": axis,

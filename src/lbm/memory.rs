@@ -7,7 +7,7 @@
 //!
 //! | stage | what is resident | bytes |
 //! | --- | --- | --- |
-//! | connectivity | pore mask, u32 cluster labels, percolating mask | 6 / sample (never above the build, as grid ≥ sample) |
+//! | connectivity | pore mask, u32 cluster labels, percolating mask | 6 / sample (never above the build, as grid ≥ sample), plus about 25 / provisional cluster, not modelled (README, Memory) |
 //! | domain build | pore mask, percolating mask, u32 node map, u16 × 3 coordinates | 2 / sample + 4 / grid + 6 / node |
 //! | solve | pore mask, node map, coordinates, 19 f32 populations | 1 / sample + 4 / grid + 82 / node |
 //! | output | as solve but the populations shrunk to density and velocity (`into_macroscopic`) | 1 / sample + 4 / grid + 34 / node |
