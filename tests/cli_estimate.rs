@@ -1299,6 +1299,17 @@ fn paths_only_across_voxel_edges_are_warned_about() {
             assert_eq!(face, all, "{name}");
         }
     }
+    // Part of the flow crossing edge gaps, beside a face-connected channel: a straight channel
+    // (z < 3) and, behind a solid plane, a second one (z ≥ 4) across which the staircase
+    // stands. Only the first is face-connected: about half the connected pore space.
+    let beside = PoreMask::from_fn([24, 8, 8], |x, y, z| z != 3 && (z < 3 || x != 10 + y % 2));
+    let sample = write_mask(dir.path(), "beside.tif", &beside);
+    let warnings = estimate_warnings(dir.path(), &sample, &["--axis", "x"]);
+    let share = warnings
+        .iter()
+        .find(|w| w.contains("of the connected pore space joins the flow only across voxel edges"))
+        .unwrap_or_else(|| panic!("{warnings:?}"));
+    assert!(share.starts_with("axis x: 5"), "{share}");
     // describe says so before any solve.
     let stair_tif = dir.path().join("stair.tif");
     let (code, _, stderr) = run(&["describe", stair_tif.to_str().unwrap(), "--periodic", "-q"]);

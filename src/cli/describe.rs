@@ -77,10 +77,12 @@ pub fn run(a: DescribeArgs) -> Result<i32> {
     } else if g.pore_voxels == 0 {
         warnings.push("no voxel is pore: estimate refuses it (all solid); check --pore-label, --threshold and --pore".into());
     }
-    for ap in &g.axes {
-        if ap.percolates && g.face_connected_porosity[ap.axis.index()] == 0.0 {
-            warnings.push(voxperm::analysis::run::edge_only_warning(ap.axis));
-        }
+    for ap in g.axes.iter().filter(|ap| ap.percolates) {
+        warnings.extend(voxperm::analysis::run::edge_gap_warning(
+            ap.axis,
+            ap.connected_porosity,
+            g.face_connected_porosity[ap.axis.index()],
+        ));
     }
     warnings.iter().for_each(super::args::warn);
     let mut out = String::new();
