@@ -717,3 +717,65 @@ fn report_of_a_non_json_file_says_what_it_takes() {
     );
     assert!(!dir.path().join("r.html").exists());
 }
+
+/// A sample whose flow crosses voxel-edge gaps (a staircase wall one voxel thick) carries its
+/// warning into the batch summary (count and text, beside a clean sample with none), the
+/// console line, and the report: its name in the comparison table says so and a caution
+/// names it.
+#[test]
+fn edge_gap_warnings_reach_the_summary_and_the_report() {
+    let dir = tempfile::tempdir().unwrap();
+    let s = dir.path().join("walls");
+    std::fs::create_dir(&s).unwrap();
+    write_mask(
+        &s,
+        "stair.tif",
+        &PoreMask::from_fn([24, 8, 8], |x, y, _| x != 10 + y % 2),
+    );
+    write_mask(&s, "slit.tif", &slit(Axis::Y, 5, 8));
+    let (code, stdout, stderr) = batch(dir.path(), "walls", "res", &["--axis", "x"]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let rows = json(&dir.path().join("res/summary.json"))["samples"].clone();
+    let row = |name: &str| {
+        rows.as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["name"] == name)
+            .unwrap_or_else(|| panic!("{name}: {rows}"))
+            .clone()
+    };
+    let stair = row("stair");
+    assert!(stair["warning_count"].as_u64().unwrap() >= 1, "{stair}");
+    assert!(
+        stair["warnings"]
+            .as_str()
+            .unwrap()
+            .contains("joins the faces only across voxel edges"),
+        "{stair}"
+    );
+    let clean = row("slit");
+    assert_eq!(clean["warning_count"], 0, "{clean}");
+    assert_eq!(clean["warnings"], "", "{clean}");
+    assert!(
+        clean["kozeny_carman_voxel2"].as_f64().unwrap() > 0.0,
+        "{clean}"
+    );
+    let mut rd = csv::Reader::from_path(dir.path().join("res/summary.csv")).unwrap();
+    let headers = rd.headers().unwrap().clone();
+    assert!(headers.iter().any(|h| h == "warnings"), "{headers:?}");
+    assert!(stderr.contains("warning"), "{stderr}");
+    let (code, _, stderr) = run_in(dir.path(), &["report", "res", "--markdown", "r.md"]);
+    assert_eq!(code, 0, "{stderr}");
+    let md = std::fs::read_to_string(dir.path().join("r.md")).unwrap();
+    assert!(
+        md.contains("stair (1 warning)") || md.contains("stair (2 warnings)"),
+        "{md}"
+    );
+    assert!(
+        md.contains(
+            "one-voxel walls), which the image does not resolve; k may be far too high: stair."
+        ),
+        "{md}"
+    );
+    assert!(!md.contains("slit (1 warning"), "{md}");
+}

@@ -305,6 +305,9 @@ pub fn sample_warnings(sample: &Sample, path: &std::path::Path) -> Vec<String> {
 /// above the same foam with its edge gaps filled (measured in a new-user trial, README).
 pub const EDGE_ONLY_SHARE: f64 = 0.01;
 
+/// Words every [`edge_gap_warning`] contains, by which the report finds them.
+pub const EDGE_GAP_MARK: &str = "only across voxel edges";
+
 /// The warning, if any, for an axis whose flow depends on voxel edges: every pore path crosses
 /// a gap where two solid voxels meet along an edge (face-connected porosity 0), or more than
 /// [`EDGE_ONLY_SHARE`] of the connected pore space is reached only across such gaps.

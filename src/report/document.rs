@@ -87,7 +87,7 @@ pub fn build(title: &str, entries: &[Entry], failed: Vec<(String, String)>) -> R
         return Err(Error::Usage("no results to report".into()));
     }
     let (plots, mut table_notes) = comparison_plots(entries)?;
-    table_notes.insert(0, "Permeability k and its Kozeny–Carman estimate in voxel² (the lattice unit: voxel edge = 1) for every sample, and in mD (1 mD = 9.869233e-16 m²; k also in m²) where the voxel size is known. Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; for flat walls along the grid the true figure is 2/3 of it, and the cautions go by that lower reading: under about ten voxels expect a resolution error (common practice). Converged: per flow axis, whether its solve became steady, with its time steps (per solve, as in Methods; steps of a warm start on the coarsened image are not counted).".into());
+    table_notes.insert(0, "Permeability k and its Kozeny–Carman estimate in voxel² (the lattice unit: voxel edge = 1) for every sample, and in mD (1 mD = 9.869233e-16 m²; k also in m²) where the voxel size is known. Pore diameter: hydraulic diameter 4φ/S in voxels, with S the corrected specific surface; for flat walls along the grid the true figure is 2/3 of it, and the cautions go by that lower reading: under about ten voxels expect a resolution error (common practice). Converged: per flow axis, whether its solve became steady, with its time steps (per solve, as in Methods; steps of a warm start on the coarsened image are not counted). A sample with warnings says how many beside its name; they are listed in its section.".into());
     Ok(Document {
         title: title.to_string(),
         comparison: comparison_table(entries),
@@ -124,8 +124,13 @@ fn comparison_table(entries: &[Entry]) -> Table {
             let r = &e.result;
             let g = r.geometry.as_ref();
             let ax = |a: Axis| r.axis(a);
+            let name = match r.warnings.len() {
+                0 => e.name.clone(),
+                1 => format!("{} (1 warning)", e.name),
+                n => format!("{} ({n} warnings)", e.name),
+            };
             vec![
-                vec![e.name.clone()],
+                vec![name],
                 vec![num(r.porosity)],
                 per_axis(r, |a| ax(a).map(|v| v.connected_porosity)),
                 per_axis(r, |a| ax(a).and_then(|v| v.permeability_md)),
@@ -547,6 +552,19 @@ fn cautions(entries: &[Entry]) -> Vec<String> {
         .collect();
     if !coarse.is_empty() {
         out.push(format!("Pores resolved by fewer than about ten voxels (common practice for a few-% error; 4φ/S read for flat and for curved walls), so expect resolution errors: {}.", coarse.join(", ")));
+    }
+    let edge_gaps: Vec<&str> = entries
+        .iter()
+        .filter(|e| {
+            e.result
+                .warnings
+                .iter()
+                .any(|w| w.contains(crate::analysis::run::EDGE_GAP_MARK))
+        })
+        .map(|e| e.name.as_str())
+        .collect();
+    if !edge_gaps.is_empty() {
+        out.push(format!("Part or all of the flow crosses gaps where two solid voxels meet only along an edge (one-voxel walls), which the image does not resolve; k may be far too high: {}.", edge_gaps.join(", ")));
     }
     let periodic: Vec<&str> = entries
         .iter()

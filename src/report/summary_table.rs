@@ -59,12 +59,18 @@ pub struct SummaryRow {
     #[serde(rename = "kozeny_carman_mD")]
     pub kozeny_carman_md: Option<f64>,
     pub kozeny_carman_m2: Option<f64>,
+    pub kozeny_carman_voxel2: Option<f64>,
     pub kozeny_constant_implied_x: Option<f64>,
     pub kozeny_constant_implied_y: Option<f64>,
     pub kozeny_constant_implied_z: Option<f64>,
     pub voxel_size_m: Option<f64>,
     pub steps: Option<usize>,
     pub converged: Option<bool>,
+    /// Number of warnings in the sample's result file.
+    pub warning_count: Option<usize>,
+    /// Those warnings, joined by " | ".
+    #[serde(default)]
+    pub warnings: String,
     pub wall_s: Option<f64>,
     pub batch_key: String,
 }
@@ -109,12 +115,15 @@ impl SummaryRow {
             pore_diameter_voxels: r.pore_diameter_voxels(),
             kozeny_carman_md: g.and_then(|g| g.kozeny_carman_md),
             kozeny_carman_m2: g.and_then(|g| g.kozeny_carman_m2),
+            kozeny_carman_voxel2: g.and_then(|g| g.kozeny_carman_lattice),
             kozeny_constant_implied_x: ix,
             kozeny_constant_implied_y: iy,
             kozeny_constant_implied_z: iz,
             voxel_size_m: r.voxel_size_m,
             steps: Some(r.steps),
             converged: Some(r.converged),
+            warning_count: Some(r.warnings.len()),
+            warnings: r.warnings.join(" | "),
             wall_s: Some(r.wall_seconds),
             batch_key: r.batch_key.clone().unwrap_or_default(),
         }
@@ -140,7 +149,7 @@ impl SummaryRow {
     }
 
     /// "k x 1.2345e3 mD, y …" for a finished sample: mD when the voxel size is known, else
-    /// voxel²; flags an unconverged solve.
+    /// voxel²; flags an unconverged solve and counts the warnings.
     pub fn headline(&self) -> String {
         let md = [
             self.permeability_x_md,
@@ -167,7 +176,12 @@ impl SummaryRow {
         } else {
             ""
         };
-        format!("k {} {unit}{conv}", ks.join(", "))
+        let warned = match self.warning_count {
+            Some(1) => ", 1 warning".to_string(),
+            Some(n) if n > 1 => format!(", {n} warnings"),
+            _ => String::new(),
+        };
+        format!("k {} {unit}{conv}{warned}", ks.join(", "))
     }
 }
 
