@@ -601,7 +601,7 @@ fn report_is_self_contained_with_table_plots_methods_and_cautions() {
         "Λ = (τ⁺ − ½)(τ⁻ − ½) = 0.1875",
         "below 1e-5",
         "sides periodic, ends periodic",
-        "only clusters spanning inlet to outlet",
+        "only clusters that carry flow from inlet to outlet",
         "id=\"cautions\"",
         voxperm::report::json::CAUTION,
     ] {
