@@ -382,7 +382,7 @@ fn solve_warnings(
     if est.tensor.is_some() && mode.sides == crate::lbm::Sides::Sealed {
         // ∫u_j dV = ∮ x_j u·n dS for a divergence-free u: with no flow through the side walls
         // (and equal inlet and outlet faces) no net flow crosses the forced axis.
-        warnings.push("the tensor's off-diagonal terms are set by the sealed sides, not by the material: walls along the flow let no net flow cross it, so they come out near zero (periodic ends) or as a boundary artefact (mirror or buffer ends), and the principal directions are the grid axes; for the full tensor use --sides periodic, on a sample many pores wide".into());
+        warnings.push("the tensor's off-diagonal terms are set by the sealed sides, not by the material: walls along the flow let no net flow cross it, so they come out near zero (periodic ends) or as a boundary artefact (mirror or buffer ends), and so do the principal directions printed from them: take the grid axes as the principal directions and the diagonal as the principal values; for the full tensor use --sides periodic, on a sample many pores wide".into());
     }
     // The face count is exact for flat walls along the grid and 1.5× the area of curved ones
     // (geometry/surface.rs), so 4φ/S spans the two readings; the warning goes by the lower,
