@@ -157,7 +157,14 @@ fn check_labels_present(data: &VoxelData, labels: &[u32], crop: Option<&Crop>) -
     } else if uniform {
         format!("; that one value only, so {whole} all solid for this label (or not segmented)")
     } else if all_integer {
-        String::new()
+        let distinct = seen
+            .as_ref()
+            .map_or(0, |s| s.iter().filter(|&&b| b).count());
+        if distinct > LIST_MAX {
+            "; so many values look like an unsegmented grey image: segment it with --threshold VALUE --pore below|above".to_string()
+        } else {
+            String::new()
+        }
     } else {
         "; this float image may need a threshold instead of labels".to_string()
     };
@@ -298,6 +305,16 @@ mod tests {
             msg.contains("1, 2, 3, 4, 5, 6, 7, 8, 9, 10 … (40 distinct values)"),
             "{msg}"
         );
+        // So many values suggest a grey image, and the threshold is offered; a few do not.
+        assert!(
+            msg.contains("unsegmented grey image: segment it with --threshold"),
+            "{msg}"
+        );
+        let v = vol(VoxelData::U8((1..=5).collect()));
+        let Err(Error::Usage(msg)) = segment(&v, &Segmentation::default(), None) else {
+            panic!()
+        };
+        assert!(!msg.contains("--threshold"), "{msg}");
     }
 
     #[test]
