@@ -89,6 +89,16 @@ impl Error {
         }
     }
 
+    /// True for [`Error::NoPercolatingPath`], named in a sample or not: a finding about the
+    /// sample (k = 0 along the axis at this resolution), not a failure to read or solve it.
+    pub fn is_no_path(&self) -> bool {
+        match self {
+            Error::NoPercolatingPath { .. } => true,
+            Error::InSample { inner, .. } => inner.is_no_path(),
+            _ => false,
+        }
+    }
+
     /// The error with `path` named in front, for the kinds whose message names no file (no
     /// percolating path, divergence, an unusable volume, a solve too large); others unchanged.
     pub fn in_sample(self, path: impl Into<PathBuf>) -> Self {

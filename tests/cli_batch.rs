@@ -721,7 +721,7 @@ fn report_of_a_non_json_file_says_what_it_takes() {
 /// A sample whose flow crosses voxel-edge gaps (a staircase wall one voxel thick) carries its
 /// warning into the batch summary (count and text, beside a clean sample with none), the
 /// console line, and the report: its name in the comparison table says so and a caution
-/// names it.
+/// names it. A sample sealed by a two-voxel wall gets the status "no path", not "failed".
 #[test]
 fn edge_gap_warnings_reach_the_summary_and_the_report() {
     let dir = tempfile::tempdir().unwrap();
@@ -733,8 +733,14 @@ fn edge_gap_warnings_reach_the_summary_and_the_report() {
         &PoreMask::from_fn([24, 8, 8], |x, y, _| x != 10 + y % 2),
     );
     write_mask(&s, "slit.tif", &slit(Axis::Y, 5, 8));
+    write_mask(
+        &s,
+        "closed.tif",
+        &PoreMask::from_fn([24, 8, 8], |x, _, _| !(10..12).contains(&x)),
+    );
     let (code, stdout, stderr) = batch(dir.path(), "walls", "res", &["--axis", "x"]);
-    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert_eq!(code, 5, "{stdout}\n{stderr}");
+    assert!(stderr.contains("closed: no path: "), "{stderr}");
     let rows = json(&dir.path().join("res/summary.json"))["samples"].clone();
     let row = |name: &str| {
         rows.as_array()
@@ -752,6 +758,15 @@ fn edge_gap_warnings_reach_the_summary_and_the_report() {
             .unwrap()
             .contains("joins the faces only across voxel edges"),
         "{stair}"
+    );
+    let closed = row("closed");
+    assert_eq!(closed["status"], "no path", "{closed}");
+    assert!(
+        closed["error"]
+            .as_str()
+            .unwrap()
+            .contains("no percolating pore path along x"),
+        "{closed}"
     );
     let clean = row("slit");
     assert_eq!(clean["warning_count"], 0, "{clean}");
@@ -778,4 +793,6 @@ fn edge_gap_warnings_reach_the_summary_and_the_report() {
         "{md}"
     );
     assert!(!md.contains("slit (1 warning"), "{md}");
+    assert!(md.contains("no percolating path: k = 0"), "{md}");
+    assert!(md.contains("- **closed**: "), "{md}");
 }

@@ -93,8 +93,13 @@ pub fn run(a: BatchArgs) -> Result<i32> {
                     .join(" ");
                 // A stale result from an earlier run must not outlive a failure.
                 let _ = std::fs::remove_file(&result_path);
-                rows[i] = SummaryRow::failed(&item.name, &item.spec.path, &msg);
-                progress.finish_sample(&format!("{tag}: failed: {msg}"), true, None);
+                if e.is_no_path() {
+                    rows[i] = SummaryRow::no_path(&item.name, &item.spec.path, &msg);
+                    progress.finish_sample(&format!("{tag}: no path: {msg}"), true, None);
+                } else {
+                    rows[i] = SummaryRow::failed(&item.name, &item.spec.path, &msg);
+                    progress.finish_sample(&format!("{tag}: failed: {msg}"), true, None);
+                }
             }
         }
         write_summary(&a.out, &rows)?;

@@ -7,7 +7,7 @@ use clap::Args;
 use std::path::{Path, PathBuf};
 use voxperm::report::document::{Entry, build};
 use voxperm::report::result::ResultView;
-use voxperm::report::summary_table::{FAILED, PENDING, read_summary_json};
+use voxperm::report::summary_table::{FAILED, NO_PATH, PENDING, read_summary_json};
 use voxperm::report::{html, markdown};
 use voxperm::volume::{natural_cmp, output_error, write_atomically};
 use voxperm::{Error, Result};
@@ -228,7 +228,7 @@ fn from_folder(folder: &Path) -> Result<Collected> {
         .iter()
         .filter(|r| !entries.iter().any(|e| e.name == r.name))
         .filter_map(|r| match r.status.as_str() {
-            FAILED => Some((r.name.clone(), r.error.clone())),
+            FAILED | NO_PATH => Some((r.name.clone(), r.error.clone())),
             PENDING => Some((
                 r.name.clone(),
                 "not run yet (the batch was interrupted or is still running)".into(),

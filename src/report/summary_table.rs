@@ -18,6 +18,8 @@ use std::path::Path;
 pub const OK: &str = "ok";
 /// Status of a sample that failed; `error` says why.
 pub const FAILED: &str = "failed";
+/// Status of a sample with no percolating path along a requested axis; `error` says which.
+pub const NO_PATH: &str = "no path";
 /// Status of a sample not yet run (the batch was interrupted or is still running).
 pub const PENDING: &str = "pending";
 
@@ -137,6 +139,14 @@ impl SummaryRow {
             error: error.to_string(),
             path: path.display().to_string(),
             ..SummaryRow::default()
+        }
+    }
+
+    /// The row of a sample with no percolating path (`error` says along which axis).
+    pub fn no_path(name: &str, path: &Path, error: &str) -> SummaryRow {
+        SummaryRow {
+            status: NO_PATH.into(),
+            ..SummaryRow::failed(name, path, error)
         }
     }
 
