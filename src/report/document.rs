@@ -170,9 +170,11 @@ fn convergence(r: &ResultView) -> Vec<String> {
         .collect()
 }
 
-/// k in the report's unit: mD when every sample has a voxel size, else voxel² when none has.
+/// k in the plots' unit: mD when any sample has a voxel size (samples without one are left out
+/// of the permeability plots: voxel² of different images are different lengths squared), else
+/// voxel².
 fn k_unit(entries: &[Entry]) -> (&'static str, bool) {
-    if entries.iter().all(|e| e.result.voxel_size_m.is_some()) {
+    if entries.iter().any(|e| e.result.voxel_size_m.is_some()) {
         ("mD", true)
     } else {
         ("voxel²", false)
@@ -182,9 +184,16 @@ fn k_unit(entries: &[Entry]) -> (&'static str, bool) {
 fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
     let mut notes = Vec::new();
     let (unit, physical) = k_unit(entries);
-    if !physical && entries.iter().any(|e| e.result.voxel_size_m.is_some()) {
-        notes
-            .push("Some samples have no voxel size, so the plots show k in voxel² for all.".into());
+    let unscaled: Vec<&str> = entries
+        .iter()
+        .filter(|e| physical && e.result.voxel_size_m.is_none())
+        .map(|e| e.name.as_str())
+        .collect();
+    if !unscaled.is_empty() {
+        notes.push(format!(
+            "Left out of the permeability plots for want of a voxel size (their k in voxel² is in the table; a voxel² of one image is not that of another): {}.",
+            unscaled.join(", ")
+        ));
     }
     let k_of = |e: &Entry, a: Axis| -> Option<f64> {
         let v = e.result.axis(a)?;
@@ -204,6 +213,7 @@ fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
     let mut tort = [vec![], vec![], vec![]];
     let mut tort_samples = Vec::new();
     let mut bars = Vec::new();
+    let mut bar_names = Vec::new();
     let mut grains = Vec::new();
     for e in entries {
         let r = &e.result;
@@ -227,7 +237,10 @@ fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
             name: e.name.clone(),
             points: ts,
         });
-        bars.push(Axis::ALL.map(|a| k_of(e, a)));
+        if !unscaled.contains(&e.name.as_str()) {
+            bars.push(Axis::ALL.map(|a| k_of(e, a)));
+            bar_names.push(e.name.clone());
+        }
         let g = r.geometry.as_ref();
         let kc = if physical {
             g.and_then(|g| g.kozeny_carman_md)
@@ -273,11 +286,10 @@ fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
             caption: format!("Simulated permeability ({unit}, log scale) against porosity, with Kozeny–Carman estimates."),
             svg: plots::permeability_porosity(&pp)?,
         });
-        let names: Vec<String> = entries.iter().map(|e| e.name.clone()).collect();
         plots.push(Plot {
             id: "permeability-bars".into(),
             caption: format!("Permeability per sample and flow axis ({unit}, log scale); blocked axes (k = 0) have no bar."),
-            svg: plots::permeability_bars(&names, &bars, unit)?,
+            svg: plots::permeability_bars(&bar_names, &bars, unit)?,
         });
     }
     if tort.iter().any(|v| !v.is_empty()) {
@@ -690,6 +702,39 @@ mod tests {
             plane_position(Axis::Z, 8, None),
             ("z = 8 voxels".into(), String::new())
         );
+    }
+
+    /// With some voxel sizes known the plots are in mD, and a sample without one is left out of
+    /// the permeability plots and named in a note (its voxel² is not the others'); with none
+    /// known they are in voxel² for all.
+    #[test]
+    fn plots_never_mix_voxel2_of_different_images() {
+        let d = build("t", &[entry("a", None), entry("b", Some(2e-6))], vec![]).unwrap();
+        let bars = d
+            .plots
+            .iter()
+            .find(|p| p.id == "permeability-bars")
+            .unwrap();
+        assert!(
+            bars.svg.contains("\nb\n") && !bars.svg.contains("\na\n"),
+            "{}",
+            bars.svg
+        );
+        assert!(bars.caption.contains("(mD"), "{}", bars.caption);
+        let note = d
+            .table_notes
+            .iter()
+            .find(|n| n.starts_with("Left out"))
+            .unwrap();
+        assert!(note.ends_with(": a."), "{note}");
+        let d = build("t", &[entry("a", None), entry("c", None)], vec![]).unwrap();
+        let bars = d
+            .plots
+            .iter()
+            .find(|p| p.id == "permeability-bars")
+            .unwrap();
+        assert!(bars.caption.contains("(voxel²"), "{}", bars.caption);
+        assert!(!d.table_notes.iter().any(|n| n.starts_with("Left out")));
     }
 
     /// Without a voxel size the Kozeny–Carman estimate is still given, in voxel² like k.
