@@ -190,11 +190,12 @@ fn memory_record(
     let file_voxels = sample.file_shape.iter().map(|&n| n as u64).product::<u64>();
     let load = load_peak_bytes(file_voxels, bytes_per_sample(&sample.sample_type));
     let grid = |a: &super::AxisEstimate| a.grid_shape.iter().map(|&n| n as u64).product::<u64>();
-    let kept = est
-        .axes
-        .first()
-        .filter(|_| kept_first)
-        .map_or(0, |a| kept_field_bytes(grid(a), a.fluid_nodes as u64));
+    // The field kept is that of the first axis solved (an axis with no path has none).
+    let kept_at = est.axes.iter().position(|a| a.percolates);
+    let kept = kept_at.filter(|_| kept_first).map_or(0, |j| {
+        let a = &est.axes[j];
+        kept_field_bytes(grid(a), a.fluid_nodes as u64)
+    });
     let solve = est
         .axes
         .iter()
@@ -207,7 +208,11 @@ fn memory_record(
                 a.fluid_nodes as u64,
                 &cfg.solver,
             );
-            let earlier = if i > 0 { kept } else { 0 };
+            let earlier = if kept_at.is_some_and(|j| i > j) {
+                kept
+            } else {
+                0
+            };
             stage + earlier
         })
         .max()
