@@ -796,3 +796,57 @@ fn edge_gap_warnings_reach_the_summary_and_the_report() {
     assert!(md.contains("no percolating path: k = 0"), "{md}");
     assert!(md.contains("- **closed**: "), "{md}");
 }
+
+/// A result file written before the edge-gap warning covered part of the pore space lacks it,
+/// and a rerun of the same version resumes that file instead of solving again: the warning is
+/// worked out from the file's recorded porosities, so the summary counts it and the report
+/// cautions about the sample all the same (and it is not given twice for a file that has it).
+#[test]
+fn an_older_result_without_the_edge_gap_share_warning_still_gets_it() {
+    let dir = tempfile::tempdir().unwrap();
+    let s = dir.path().join("walls");
+    std::fs::create_dir(&s).unwrap();
+    // A straight channel (z < 3) and, between solid planes z = 3 and z = 7, a second one across
+    // which a one-voxel staircase wall stands: about half the connected pore space is reached
+    // only across edge gaps.
+    write_mask(
+        &s,
+        "beside.tif",
+        &PoreMask::from_fn([24, 8, 8], |x, y, z| {
+            z != 3 && z != 7 && (z < 3 || x != 10 + y % 2)
+        }),
+    );
+    let (code, stdout, stderr) = batch(dir.path(), "walls", "res", &["--axis", "x"]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    let warned = |rows: &serde_json::Value| {
+        let row = &rows["samples"][0];
+        (
+            row["warning_count"].as_u64().unwrap(),
+            row["warnings"]
+                .as_str()
+                .unwrap()
+                .matches("of the connected pore space joins the flow only across voxel edges")
+                .count(),
+        )
+    };
+    let (count, shares) = warned(&json(&dir.path().join("res/summary.json")));
+    assert_eq!(shares, 1);
+    // The result as an older voxperm of the same version wrote it: without that warning.
+    let result = dir.path().join("res/beside.json");
+    let mut v = json(&result);
+    let ws = v["warnings"].as_array_mut().unwrap();
+    ws.retain(|w| !w.as_str().unwrap().contains("only across voxel edges"));
+    assert_eq!(ws.len() as u64, count - 1);
+    std::fs::write(&result, serde_json::to_string_pretty(&v).unwrap()).unwrap();
+    let (code, stdout, stderr) = batch(dir.path(), "walls", "res", &["--axis", "x"]);
+    assert_eq!(code, 0, "{stdout}\n{stderr}");
+    assert!(stderr.contains("skipped (unchanged)"), "{stderr}");
+    assert_eq!(
+        warned(&json(&dir.path().join("res/summary.json"))),
+        (count, 1)
+    );
+    let (code, _, stderr) = run_in(dir.path(), &["report", "res", "--markdown", "r.md"]);
+    assert_eq!(code, 0, "{stderr}");
+    let md = std::fs::read_to_string(dir.path().join("r.md")).unwrap();
+    assert!(md.contains("k may be far too high: beside."), "{md}");
+}

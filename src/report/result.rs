@@ -140,6 +140,9 @@ pub struct AxisView {
     pub axis: Axis,
     pub percolates: bool,
     pub connected_porosity: f64,
+    /// Absent in result files older than the face-link labelling.
+    #[serde(default)]
+    pub face_connected_porosity: Option<f64>,
     pub permeability_lattice: f64,
     pub permeability_m2: Option<f64>,
     #[serde(rename = "permeability_mD")]
@@ -186,7 +189,7 @@ pub struct ResultView {
 impl ResultView {
     /// Parses result JSON text; `path` names the file in errors.
     pub fn parse(text: &str, path: &Path) -> Result<ResultView> {
-        serde_json::from_str(text).map_err(|e| {
+        let mut view: ResultView = serde_json::from_str(text).map_err(|e| {
             let why = if e.is_syntax() || e.is_eof() {
                 format!(
                     "not a voxperm result file: it is not JSON ({e}); give result .json files or a batch's results folder"
@@ -195,7 +198,31 @@ impl ResultView {
                 format!("not a voxperm result file: {e}")
             };
             Error::bad_input(path, why)
-        })
+        })?;
+        view.add_edge_gap_warnings();
+        Ok(view)
+    }
+
+    /// Adds the edge-gap warning (`analysis::run::edge_gap_warning`) of any percolating axis
+    /// whose recorded porosities call for it and whose warnings lack it: a file written before
+    /// the warning covered part of the pore space (same version, so a batch resumes it rather
+    /// than solving it again) would otherwise reach the summary and the report unflagged.
+    fn add_edge_gap_warnings(&mut self) {
+        use crate::analysis::run::{EDGE_GAP_MARK, edge_gap_warning};
+        for a in self.axes.iter().filter(|a| a.percolates) {
+            let Some(face) = a.face_connected_porosity else {
+                continue;
+            };
+            let prefix = format!("axis {}:", a.axis);
+            let given = self
+                .warnings
+                .iter()
+                .any(|w| w.starts_with(&prefix) && w.contains(EDGE_GAP_MARK));
+            if !given {
+                self.warnings
+                    .extend(edge_gap_warning(a.axis, a.connected_porosity, face));
+            }
+        }
     }
 
     /// Reads and parses a result file.

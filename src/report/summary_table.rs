@@ -68,7 +68,8 @@ pub struct SummaryRow {
     pub voxel_size_m: Option<f64>,
     pub steps: Option<usize>,
     pub converged: Option<bool>,
-    /// Number of warnings in the sample's result file.
+    /// Number of warnings in the sample's result file (with the edge-gap warning its recorded
+    /// porosities call for, if an older file lacks it: `ResultView::parse`).
     pub warning_count: Option<usize>,
     /// Those warnings, joined by " | ".
     #[serde(default)]
