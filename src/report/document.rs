@@ -229,10 +229,13 @@ fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
                 ts.push((phi, t));
             }
         }
-        pp.samples.push(plots::Named {
-            name: e.name.clone(),
-            points: ks,
-        });
+        // A sample left out of the k plot has no place in its key either.
+        if !unscaled.contains(&e.name.as_str()) {
+            pp.samples.push(plots::Named {
+                name: e.name.clone(),
+                points: ks,
+            });
+        }
         tort_samples.push(plots::Named {
             name: e.name.clone(),
             points: ts,
@@ -727,6 +730,13 @@ mod tests {
             .find(|n| n.starts_with("Left out"))
             .unwrap();
         assert!(note.ends_with(": a."), "{note}");
+        // A name too long to stand beside the points would number every sample in a key under
+        // the plot: the sample left out is not in the k plot's key (nor numbered in it).
+        let long = "a sample with a long name";
+        let d = build("t", &[entry(long, None), entry("b", Some(2e-6))], vec![]).unwrap();
+        let svg = |id: &str| &d.plots.iter().find(|p| p.id == id).unwrap().svg;
+        assert!(!svg("permeability-porosity").contains(long));
+        assert!(svg("permeability-porosity").contains("\nb\n"));
         let d = build("t", &[entry("a", None), entry("c", None)], vec![]).unwrap();
         let bars = d
             .plots
