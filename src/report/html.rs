@@ -81,7 +81,7 @@ pub fn render(d: &Document) -> String {
         let _ = writeln!(o, "<p class=\"note\">{}</p>", escape(n));
     }
     if !d.failed.is_empty() {
-        o.push_str("<h3>Samples without a result (failed, or no percolating path: k = 0 at this resolution)</h3>\n<ul>\n");
+        o.push_str("<h3>Samples without a result (failed, not run yet, or no percolating path: k = 0 at this resolution)</h3>\n<ul>\n");
         for (name, err) in &d.failed {
             let _ = writeln!(
                 o,

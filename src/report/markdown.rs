@@ -135,7 +135,7 @@ pub fn render(d: &Document, stem: &str) -> (String, Vec<(String, String)>) {
         let _ = writeln!(o, "{}\n", line(n));
     }
     if !d.failed.is_empty() {
-        o.push_str("### Samples without a result (failed, or no percolating path: k = 0 at this resolution)\n\n");
+        o.push_str("### Samples without a result (failed, not run yet, or no percolating path: k = 0 at this resolution)\n\n");
         for (name, err) in &d.failed {
             let _ = writeln!(o, "- **{}**: {}", inline(name), inline(err));
         }

@@ -18,7 +18,8 @@ use std::path::Path;
 pub const OK: &str = "ok";
 /// Status of a sample that failed; `error` says why.
 pub const FAILED: &str = "failed";
-/// Status of a sample with no percolating path along a requested axis; `error` says which.
+/// Status of a sample with no percolating path along any requested axis (with several axes, a
+/// blocked one beside open ones is k = 0 in an `ok` row); `error` says so.
 pub const NO_PATH: &str = "no path";
 /// Status of a sample not yet run (the batch was interrupted or is still running).
 pub const PENDING: &str = "pending";
