@@ -326,7 +326,7 @@ pub fn edge_gap_warning(axis: Axis, connected: f64, face_connected: f64) -> Opti
         ))
     } else if face_connected < (1.0 - EDGE_ONLY_SHARE) * connected {
         Some(format!(
-            "axis {axis}: {:.0}% of the connected pore space joins the flow only across voxel edges (face-connected porosity {face_connected:.4} against {connected:.4}): flow through gaps where two solid voxels meet along an edge, which the image does not resolve, can raise k by tens of % (README, Connectivity); make one-voxel walls face-connected in the segmentation",
+            "axis {axis}: {:.0}% of the connected pore space joins the flow only across voxel edges (face-connected porosity {face_connected:.4} against {connected:.4}): where that is one-voxel walls leaking through gaps at which two solid voxels meet along an edge, which the image does not resolve, k can be tens of % too high (README, Connectivity): make such walls face-connected in the segmentation; where it is speckle noise or dead-end voxels hanging on by an edge, which carry little flow, k moves far less",
             100.0 * (1.0 - face_connected / connected)
         ))
     } else {

@@ -78,7 +78,7 @@ impl BatchProgress {
         overall.set_position(self.done as u64);
         let mut msg = String::new();
         if self.failed > 0 {
-            msg.push_str(&format!("{} failed · ", self.failed));
+            msg.push_str(&format!("{} failed or no path · ", self.failed));
         }
         if self.solved > 0 {
             let left = (self.total - self.done) as f64 * self.solve_seconds / self.solved as f64;
