@@ -238,8 +238,15 @@ unsafe fn chunk_body<const ODD: bool, const SUMS: bool, const SIMD: u8>(
     while k < end {
         let used = (end - k).min(LANES);
         let full = used == LANES;
+        // A block with a sealed edge gap (Domain::seal_edge_gaps) takes the portable path,
+        // which reads the gap marks; the vector path does not.
         #[cfg(target_arch = "x86_64")]
-        if ODD && SIMD > 0 && full {
+        if ODD
+            && SIMD > 0
+            && full
+            && (domain.edge_gaps.is_empty()
+                || domain.edge_gaps[k..k + LANES].iter().all(|&b| b == 0))
+        {
             let u = unsafe {
                 if SIMD == 2 {
                     super::odd_x86::odd_block::<true>(domain, &c.simd, &c.col, base, n, k)
@@ -336,6 +343,7 @@ unsafe fn odd_slots(
 ) {
     let coords = &domain.coords;
     let map = &domain.node_of_voxel;
+    let gaps = &domain.edge_gaps;
     let mut node = [0usize; LANES];
     // Per axis, the coordinate one step down / same / up (as map offsets) and whether a step
     // down / up leaves a closed face.
@@ -383,7 +391,8 @@ unsafe fn odd_slots(
                 }
             }
             let m = unsafe { *map.get_unchecked(v) };
-            let fluid = !out && m != SOLID;
+            let sealed = !gaps.is_empty() && gaps[node[l]] & (1 << j) != 0;
+            let fluid = !out && m != SOLID && !sealed;
             at[j][l] = if fluid {
                 j * n + m as usize
             } else {
@@ -634,11 +643,18 @@ mod tests {
             },
         ];
         let mut interior = 0;
-        for (mask, mode) in [&sparse, &open]
+        let mut gap_nodes = 0;
+        for ((mask, mode), seal) in [&sparse, &open]
             .into_iter()
             .flat_map(|m| modes.map(|mode| (m, mode)))
+            .flat_map(|c| [(c, false), (c, true)])
         {
-            let domain = Domain::build(mask, Axis::X, mode, u64::MAX).unwrap();
+            let mut domain = Domain::build(mask, Axis::X, mode, u64::MAX).unwrap();
+            if seal {
+                // Sealed edge gaps: blocks holding one take the portable path in every build.
+                domain.seal_edge_gaps();
+                gap_nodes += domain.edge_gaps.iter().filter(|&&b| b != 0).count();
+            }
             interior += interior_blocks(&domain);
             if mode.ends != Ends::Mirror {
                 assert!(
@@ -683,6 +699,41 @@ mod tests {
             }
         }
         assert!(interior > 50, "only {interior} all-fluid blocks");
+        assert!(
+            gap_nodes > 20,
+            "only {gap_nodes} nodes with a sealed edge gap"
+        );
+    }
+
+    /// A wall one voxel thick drawn as a staircase (x = 3 + y mod 2) has edge gaps at every
+    /// step: open, flow crosses it; sealed, every link across it is a wall, the marks are
+    /// symmetric (the AA pattern needs the other end to agree), and nothing crosses.
+    #[test]
+    fn sealed_edge_gaps_close_a_staircase_wall() {
+        use super::super::d3q19::C;
+        let stair = PoreMask::from_fn([8, 4, 3], |x, y, _| x != 3 + y % 2);
+        let mut domain = Domain::build(&stair, Axis::X, BoundaryMode::PERIODIC, u64::MAX).unwrap();
+        let crossing = |d: &Domain| {
+            (0..d.fluid_nodes())
+                .flat_map(|k| (1..Q).map(move |j| (k, j)))
+                .filter(|&(k, j)| {
+                    let x = d.coords[k][0] as i32;
+                    let to = x + C[j][0];
+                    d.link_open(k, j) && ((x <= 3 && to >= 4) || (x >= 4 && to <= 3))
+                })
+                .count()
+        };
+        assert!(crossing(&domain) > 0, "open gaps must pass the wall");
+        domain.seal_edge_gaps();
+        assert_eq!(crossing(&domain), 0);
+        for k in 0..domain.fluid_nodes() {
+            for j in 1..Q {
+                if domain.edge_gaps[k] & (1 << j) != 0 {
+                    let m = domain.neighbour(domain.coords[k], C[j]).unwrap() as usize;
+                    assert!(domain.edge_gaps[m] & (1 << opposite(j)) != 0, "{k} {j}");
+                }
+            }
+        }
     }
 
     /// An equilibrium start reads back as the density and velocity it was given (the F/2 of
