@@ -1367,3 +1367,44 @@ fn paths_only_across_voxel_edges_are_warned_about() {
     let (code, _, stderr) = run(&["estimate", sample.to_str().unwrap(), "--periodic"]);
     assert_eq!(code, 4, "{stderr}");
 }
+
+/// `--edge-gaps sealed` treats links across voxel edges between two solid voxels as walls:
+/// the staircase wall then has no path (exit 4); beside a straight channel, the channel
+/// behind such a wall carries nothing, so k equals that of the straight channel alone, bit
+/// for bit, and is below the open-gap value. A wrong value is a usage error.
+#[test]
+fn sealed_edge_gaps_stop_the_flow_through_them() {
+    let dir = tempfile::tempdir().unwrap();
+    let k_of = |name: &str, mask: &PoreMask, extra: &[&str]| {
+        let sample = write_mask(dir.path(), name, mask);
+        let j = dir.path().join(format!("{name}.json"));
+        let mut args = vec!["estimate", sample.to_str().unwrap(), "--axis", "x", "-q"];
+        args.extend_from_slice(extra);
+        args.extend(["--json", j.to_str().unwrap()]);
+        let (code, _, stderr) = run(&args);
+        if code != 0 {
+            return Err((code, stderr));
+        }
+        let v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&j).unwrap()).unwrap();
+        Ok(v["permeability_lattice"].as_f64().unwrap())
+    };
+    let sealed = ["--edge-gaps", "sealed"];
+    let stair = PoreMask::from_fn([24, 8, 8], |x, y, _| x != 10 + y % 2);
+    assert!(k_of("stair.tif", &stair, &[]).unwrap() > 0.0);
+    let (code, stderr) = k_of("stair.tif", &stair, &sealed).unwrap_err();
+    assert_eq!(code, 4, "{stderr}");
+    let beside = PoreMask::from_fn([24, 8, 8], |x, y, z| z != 3 && (z < 3 || x != 10 + y % 2));
+    let alone = PoreMask::from_fn([24, 8, 8], |_, _, z| z < 3);
+    let open = k_of("beside.tif", &beside, &[]).unwrap();
+    let shut = k_of("beside.tif", &beside, &sealed).unwrap();
+    let straight = k_of("alone.tif", &alone, &[]).unwrap();
+    assert_eq!(shut, straight);
+    assert!(open > 1.1 * shut, "open {open}, sealed {shut}");
+    let (code, stderr) = k_of("alone.tif", &alone, &["--edge-gaps", "shut"]).unwrap_err();
+    assert_eq!(code, 2, "{stderr}");
+    assert!(
+        stderr.contains("--edge-gaps takes open or sealed"),
+        "{stderr}"
+    );
+}

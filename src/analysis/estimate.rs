@@ -4,7 +4,7 @@
 use super::flow::{AxisFlow, analyse};
 use super::tensor::{TensorAnalysis, analyse_tensor};
 use super::units::{lattice_to_m2, m2_to_md};
-use crate::geometry::connectivity::{face_connected_pore_voxels, percolating};
+use crate::geometry::connectivity::{Links, face_connected_pore_voxels, percolating_by};
 use crate::geometry::{Axis, PoreMask};
 use crate::lbm::solver::CheckPoint;
 use crate::lbm::warm::{solve_coarse, solve_stage_bytes};
@@ -115,7 +115,13 @@ pub fn estimate_axis(
 ) -> Result<(AxisEstimate, Option<KeptField>)> {
     let sides_periodic = cfg.mode.sides == Sides::Periodic;
     let ends_periodic = cfg.mode.ends == Ends::Periodic;
-    let perc = percolating(mask, axis, sides_periodic, ends_periodic)?;
+    // With edge gaps sealed the solver's links join what face links join (Domain::seal_edge_gaps).
+    let links = if cfg.solver.seal_edge_gaps {
+        Links::Faces
+    } else {
+        Links::Lattice
+    };
+    let perc = percolating_by(mask, axis, sides_periodic, ends_periodic, links)?;
     let connected_porosity = perc.connected_pore_voxels as f64 / mask.len().max(1) as f64;
     if !perc.percolates {
         return Err(Error::NoPercolatingPath {
@@ -144,9 +150,12 @@ pub fn estimate_axis(
         });
     }
     // A face-connected path lies inside the connected clusters, so their mask suffices.
-    let face_connected_porosity =
+    let face_connected_porosity = if cfg.solver.seal_edge_gaps {
+        connected_porosity
+    } else {
         face_connected_pore_voxels(&perc.mask, axis, sides_periodic, ends_periodic)? as f64
-            / mask.len().max(1) as f64;
+            / mask.len().max(1) as f64
+    };
     // The coarse flow is solved before the fine grid exists, so the two never hold
     // populations at the same time.
     let mut note = None;
@@ -166,7 +175,10 @@ pub fn estimate_axis(
     } else {
         None
     };
-    let domain = Domain::build(&perc.mask, axis, cfg.mode, cfg.max_memory_bytes)?;
+    let mut domain = Domain::build(&perc.mask, axis, cfg.mode, cfg.max_memory_bytes)?;
+    if cfg.solver.seal_edge_gaps {
+        domain.seal_edge_gaps();
+    }
     drop(perc);
     // A start the fine grid cannot hold (the coarsened image far more open than the fine
     // one, so the rescaled flow is too fast) diverges within the first checks: start again

@@ -322,11 +322,11 @@ pub fn edge_gap_warning(axis: Axis, connected: f64, face_connected: f64) -> Opti
         None
     } else if face_connected == 0.0 {
         Some(format!(
-            "axis {axis}: the pore space joins the faces only across voxel edges: every path passes a gap where two solid voxels meet along an edge, which the solver's edge links let flow through but the image does not resolve; such a wall is probably closed in the material and k may be far too high (make one-voxel walls face-connected in the segmentation, or look at the flow in the VTK field)"
+            "axis {axis}: the pore space joins the faces only across voxel edges: every path passes a gap where two solid voxels meet along an edge, which the solver's edge links let flow through but the image does not resolve; such a wall is probably closed in the material and k may be far too high (make one-voxel walls face-connected in the segmentation, or run with --edge-gaps sealed, which treats such gaps as walls)"
         ))
     } else if face_connected < (1.0 - EDGE_ONLY_SHARE) * connected {
         Some(format!(
-            "axis {axis}: {:.0}% of the connected pore space joins the flow only across voxel edges (face-connected porosity {face_connected:.4} against {connected:.4}): where that is one-voxel walls leaking through gaps at which two solid voxels meet along an edge, which the image does not resolve, k can be tens of % too high (README, Connectivity): make such walls face-connected in the segmentation; where it is speckle noise or dead-end voxels hanging on by an edge, which carry little flow, k moves far less",
+            "axis {axis}: {:.0}% of the connected pore space joins the flow only across voxel edges (face-connected porosity {face_connected:.4} against {connected:.4}): where that is one-voxel walls leaking through gaps at which two solid voxels meet along an edge, which the image does not resolve, k can be tens of % too high (README, Connectivity): make such walls face-connected in the segmentation, or compare with --edge-gaps sealed; where it is speckle noise or dead-end voxels hanging on by an edge, which carry little flow, k moves far less",
             100.0 * (1.0 - face_connected / connected)
         ))
     } else {
@@ -412,7 +412,11 @@ fn settings(cfg: &RunConfig, threads: usize) -> Settings {
         ends: cfg.mode.ends.to_string(),
         threads,
         max_memory_bytes: cfg.max_memory_bytes,
-        connectivity: "pore clusters along D3Q19 links (faces and edges); only clusters that carry flow from inlet to outlet (with periodic ends: that wind round the flow axis) are solved; a second labelling with face links only flags an axis whose every path crosses a voxel edge",
+        connectivity: if cfg.solver.seal_edge_gaps {
+            "pore clusters along face links (edge gaps sealed, so these are the D3Q19 links the solver passes); only clusters that carry flow from inlet to outlet (with periodic ends: that wind round the flow axis) are solved"
+        } else {
+            "pore clusters along D3Q19 links (faces and edges); only clusters that carry flow from inlet to outlet (with periodic ends: that wind round the flow axis) are solved; a second labelling with face links only flags an axis whose every path crosses a voxel edge"
+        },
     }
 }
 

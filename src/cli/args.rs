@@ -60,6 +60,11 @@ pub struct SolverArgs {
     /// default warm start reaches the same criterion in fewer full-grid steps).
     #[arg(long)]
     pub cold_start: bool,
+    /// Links between pore voxels that touch only along an edge (their two shared face
+    /// neighbours solid): open passes flow through them (D3Q19 as is), sealed treats them as
+    /// walls, as a one-voxel staircase wall would be in the material (README, Connectivity).
+    #[arg(long, default_value = "open", value_name = "open|sealed")]
+    pub edge_gaps: String,
     /// TRT magic parameter Λ = (τ⁺ − ½)(τ⁻ − ½).
     #[arg(long, default_value_t = 3.0 / 16.0, value_name = "LAMBDA", allow_hyphen_values = true)]
     pub magic: f64,
@@ -218,6 +223,15 @@ impl SolverArgs {
             force: self.force,
             auto_tau: self.auto_tau,
             warm_start: !self.cold_start,
+            seal_edge_gaps: match self.edge_gaps.as_str() {
+                "open" => false,
+                "sealed" => true,
+                other => {
+                    return Err(Error::Usage(format!(
+                        "--edge-gaps takes open or sealed, not '{other}'"
+                    )));
+                }
+            },
             ..SolverSettings::default()
         };
         let warnings = s.validate()?;

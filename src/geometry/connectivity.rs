@@ -724,7 +724,19 @@ pub fn percolating(
     sides_periodic: bool,
     ends_periodic: bool,
 ) -> Result<Percolation> {
-    let base = label_clusters(mask, [false; 3])?;
+    percolating_by(mask, axis, sides_periodic, ends_periodic, Links::Lattice)
+}
+
+/// [`percolating`] with voxels joined along `links`: [`Links::Faces`] for a solve whose edge
+/// gaps are walls (`SolverSettings::seal_edge_gaps`).
+pub fn percolating_by(
+    mask: &PoreMask,
+    axis: Axis,
+    sides_periodic: bool,
+    ends_periodic: bool,
+    links: Links,
+) -> Result<Percolation> {
+    let base = label_clusters_by(mask, [false; 3], links)?;
     let d = decide(&base, axis, sides_periodic, ends_periodic);
     let kept: Vec<bool> = base.labels().iter().map(|&l| d.keep[l as usize]).collect();
     Ok(Percolation {

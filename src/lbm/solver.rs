@@ -73,6 +73,10 @@ pub struct SolverSettings {
     /// Start each solve from the flow on the 2× coarsened mask instead of rest (see
     /// `lbm::warm`); the convergence criterion is unchanged.
     pub warm_start: bool,
+    /// Treat a D3Q19 edge link between two pore voxels whose two shared face neighbours are
+    /// both solid (an "edge gap": the voxels touch only along an edge) as a wall, and label the
+    /// pore space along face links only (`Domain::seal_edge_gaps`). Off: such links pass flow.
+    pub seal_edge_gaps: bool,
 }
 
 impl Default for SolverSettings {
@@ -89,6 +93,7 @@ impl Default for SolverSettings {
             max_mach: 0.1,
             auto_tau: false,
             warm_start: true,
+            seal_edge_gaps: false,
         }
     }
 }

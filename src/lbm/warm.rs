@@ -65,7 +65,15 @@ pub fn solve_stage_bytes(
     } else {
         0
     };
-    super::memory::solve_peak_bytes(sample_voxels, grid_voxels, fluid_nodes).saturating_add(coarse)
+    // Sealed edge gaps keep a u32 of link marks per node (Domain::seal_edge_gaps).
+    let gaps = if settings.seal_edge_gaps {
+        fluid_nodes.saturating_mul(4)
+    } else {
+        0
+    };
+    super::memory::solve_peak_bytes(sample_voxels, grid_voxels, fluid_nodes)
+        .saturating_add(coarse)
+        .saturating_add(gaps)
 }
 
 /// The mask coarsened 2× along each axis: a coarse voxel is pore when at least half of the fine

@@ -523,8 +523,13 @@ fn method_sentences(r: &ResultView) -> Vec<String> {
     let axes: Vec<String> = r.axes.iter().map(|a| a.axis.to_string()).collect();
     vec![
         format!(
-            "Lattice {} (19 velocities) with {collision}, lattice viscosity ν = {viscosity}, driven by {force}, half-way bounce-back at pore walls.",
-            s.lattice
+            "Lattice {} (19 velocities) with {collision}, lattice viscosity ν = {viscosity}, driven by {force}, half-way bounce-back at pore walls{}.",
+            s.lattice,
+            if v.seal_edge_gaps {
+                " and across edge gaps (links between pore voxels that touch only along an edge, their two shared face neighbours solid, treated as walls; pore space labelled along face links)"
+            } else {
+                ""
+            }
         ),
         format!("Sample faces: sides {}, ends {}.", s.sides, s.ends),
         format!("Flow along {}.", axes.join(", ")),

@@ -98,6 +98,9 @@ pub struct SolverView {
     /// Started from the coarsened image (files before it existed started from rest).
     #[serde(default)]
     pub warm_start: bool,
+    /// Edge gaps treated as walls (`--edge-gaps sealed`; files before it existed: open).
+    #[serde(default)]
+    pub seal_edge_gaps: bool,
 }
 
 /// The run settings as recorded.
