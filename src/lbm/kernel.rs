@@ -322,8 +322,9 @@ fn add_sums(s: &mut Sums, u: &[Lanes; 3], used: usize) {
 }
 
 /// The slot table of an odd step for the nodes `k..k + used` (lanes past `used` repeat the
-/// last node). `at[j]` is slot j of the node at x + c_j when that voxel is fluid, else slot j̄ of
-/// the node itself (half-way bounce-back); `at[0]` is the node's rest slot. The node reads its
+/// last node). `at[j]` is slot j of the node at x + c_j when that voxel is fluid and the link
+/// is not a sealed edge gap (`Domain::edge_gaps`), else slot j̄ of the node itself (half-way
+/// bounce-back); `at[0]` is the node's rest slot. The node reads its
 /// f_i from `at[ī]` and writes its post-collision f_i to `at[i]`: the same set of slots.
 ///
 /// Branch-free: the neighbour coordinate along each axis is chosen with selects (wrapped on a
