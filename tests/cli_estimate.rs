@@ -1394,6 +1394,20 @@ fn sealed_edge_gaps_stop_the_flow_through_them() {
     assert!(k_of("stair.tif", &stair, &[]).unwrap() > 0.0);
     let (code, stderr) = k_of("stair.tif", &stair, &sealed).unwrap_err();
     assert_eq!(code, 4, "{stderr}");
+    // The summary says which reading was solved.
+    let alone_tif = write_mask(
+        dir.path(),
+        "line.tif",
+        &PoreMask::from_fn([24, 8, 8], |_, _, z| z < 3),
+    );
+    let (code, stdout, stderr) = run(&[
+        "estimate",
+        alone_tif.to_str().unwrap(),
+        "--edge-gaps",
+        "sealed",
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stdout.contains(", edge gaps sealed"), "{stdout}");
     let beside = PoreMask::from_fn([24, 8, 8], |x, y, z| z != 3 && (z < 3 || x != 10 + y % 2));
     let alone = PoreMask::from_fn([24, 8, 8], |_, _, z| z < 3);
     let open = k_of("beside.tif", &beside, &[]).unwrap();

@@ -68,7 +68,7 @@ pub fn render(r: &EstimateReport) -> String {
     };
     let _ = writeln!(
         s,
-        "solver      D3Q19 {}, {tau}, sides {}, ends {}, tolerance {:.1e}, {}",
+        "solver      D3Q19 {}, {tau}, sides {}, ends {}, tolerance {:.1e}, {}{}",
         set.solver.collision,
         set.sides,
         set.ends,
@@ -77,6 +77,11 @@ pub fn render(r: &EstimateReport) -> String {
             "warm start"
         } else {
             "cold start"
+        },
+        if set.solver.seal_edge_gaps {
+            ", edge gaps sealed"
+        } else {
+            ""
         }
     );
     let _ = writeln!(s, "porosity    {:.4}", r.porosity);
