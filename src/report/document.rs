@@ -124,10 +124,9 @@ fn comparison_table(entries: &[Entry]) -> Table {
             let r = &e.result;
             let g = r.geometry.as_ref();
             let ax = |a: Axis| r.axis(a);
-            let name = match r.warnings.len() {
-                0 => e.name.clone(),
-                1 => format!("{} (1 warning)", e.name),
-                n => format!("{} ({n} warnings)", e.name),
+            let name = match super::summary_table::warnings_phrase(r.warnings.len()) {
+                Some(w) => format!("{} ({w})", e.name),
+                None => e.name.clone(),
             };
             vec![
                 vec![name],
@@ -184,17 +183,12 @@ fn k_unit(entries: &[Entry]) -> (&'static str, bool) {
 fn comparison_plots(entries: &[Entry]) -> Result<(Vec<Plot>, Vec<String>)> {
     let mut notes = Vec::new();
     let (unit, physical) = k_unit(entries);
-    let unscaled: Vec<&str> = entries
-        .iter()
-        .filter(|e| physical && e.result.voxel_size_m.is_none())
-        .map(|e| e.name.as_str())
-        .collect();
-    if !unscaled.is_empty() {
-        notes.push(format!(
-            "Left out of the permeability plots for want of a voxel size (their k in voxel² is in the table; a voxel² of one image is not that of another): {}.",
-            unscaled.join(", ")
-        ));
-    }
+    let unscaled = names_where(entries, |e| physical && e.result.voxel_size_m.is_none());
+    push_naming(
+        &mut notes,
+        "Left out of the permeability plots for want of a voxel size (their k in voxel² is in the table; a voxel² of one image is not that of another)",
+        &unscaled,
+    );
     let k_of = |e: &Entry, a: Axis| -> Option<f64> {
         let v = e.result.axis(a)?;
         if physical {
@@ -547,17 +541,11 @@ fn cautions(entries: &[Entry]) -> Vec<String> {
         CAUTION.to_string(),
         "The image is a small piece of the material: permeability of heterogeneous materials changes with the size and location of the sample, and a representative volume must be shown, not assumed.".into(),
     ];
-    let unconverged: Vec<&str> = entries
-        .iter()
-        .filter(|e| !e.result.converged)
-        .map(|e| e.name.as_str())
-        .collect();
-    if !unconverged.is_empty() {
-        out.push(format!(
-            "Not converged (values not final): {}.",
-            unconverged.join(", ")
-        ));
-    }
+    push_naming(
+        &mut out,
+        "Not converged (values not final)",
+        &names_where(entries, |e| !e.result.converged),
+    );
     let coarse: Vec<String> = entries
         .iter()
         .filter_map(|e| {
@@ -570,31 +558,45 @@ fn cautions(entries: &[Entry]) -> Vec<String> {
                 })
         })
         .collect();
-    if !coarse.is_empty() {
-        out.push(format!("Pores resolved by fewer than about ten voxels (common practice for a few-% error; 4φ/S read for flat and for curved walls), so expect resolution errors: {}.", coarse.join(", ")));
-    }
-    let edge_gaps: Vec<&str> = entries
-        .iter()
-        .filter(|e| {
-            e.result
-                .warnings
-                .iter()
-                .any(|w| w.contains(crate::analysis::run::EDGE_GAP_MARK))
-        })
-        .map(|e| e.name.as_str())
-        .collect();
-    if !edge_gaps.is_empty() {
-        out.push(format!("Part or all of the flow crosses gaps where two solid voxels meet only along an edge (one-voxel walls), which the image does not resolve; k may be far too high: {}.", edge_gaps.join(", ")));
-    }
-    let periodic: Vec<&str> = entries
-        .iter()
-        .filter(|e| e.result.settings.ends == "periodic")
-        .map(|e| e.name.as_str())
-        .collect();
-    if !periodic.is_empty() {
-        out.push(format!("Periodic ends assume the structure repeats along the flow axis, which holds for generated unit cells but not for scans: {}.", periodic.join(", ")));
-    }
+    push_naming(
+        &mut out,
+        "Pores resolved by fewer than about ten voxels (common practice for a few-% error; 4φ/S read for flat and for curved walls), so expect resolution errors",
+        &coarse,
+    );
+    let edge_gaps = names_where(entries, |e| {
+        e.result
+            .warnings
+            .iter()
+            .any(|w| w.contains(crate::analysis::run::EDGE_GAP_MARK))
+    });
+    push_naming(
+        &mut out,
+        "Part or all of the flow crosses gaps where two solid voxels meet only along an edge (one-voxel walls), which the image does not resolve; k may be far too high",
+        &edge_gaps,
+    );
+    push_naming(
+        &mut out,
+        "Periodic ends assume the structure repeats along the flow axis, which holds for generated unit cells but not for scans",
+        &names_where(entries, |e| e.result.settings.ends == "periodic"),
+    );
     out
+}
+
+/// Names of the samples for which `keep` holds, in report order.
+fn names_where(entries: &[Entry], keep: impl Fn(&Entry) -> bool) -> Vec<&str> {
+    entries
+        .iter()
+        .filter(|e| keep(e))
+        .map(|e| e.name.as_str())
+        .collect()
+}
+
+/// Adds "`sentence`: a, b." to `out` when `names` is not empty.
+fn push_naming(out: &mut Vec<String>, sentence: &str, names: &[impl AsRef<str>]) {
+    if !names.is_empty() {
+        let list: Vec<&str> = names.iter().map(AsRef::as_ref).collect();
+        out.push(format!("{sentence}: {}.", list.join(", ")));
+    }
 }
 
 #[cfg(test)]

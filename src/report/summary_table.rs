@@ -188,12 +188,20 @@ impl SummaryRow {
         } else {
             ""
         };
-        let warned = match self.warning_count {
-            Some(1) => ", 1 warning".to_string(),
-            Some(n) if n > 1 => format!(", {n} warnings"),
-            _ => String::new(),
-        };
+        let warned = self
+            .warning_count
+            .and_then(warnings_phrase)
+            .map_or(String::new(), |w| format!(", {w}"));
         format!("k {} {unit}{conv}{warned}", ks.join(", "))
+    }
+}
+
+/// "1 warning", "3 warnings"; nothing for none.
+pub fn warnings_phrase(n: usize) -> Option<String> {
+    match n {
+        0 => None,
+        1 => Some("1 warning".into()),
+        n => Some(format!("{n} warnings")),
     }
 }
 
